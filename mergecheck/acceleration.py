@@ -1,0 +1,180 @@
+"""Acceleration models of design vehicles, and the registry that names them.
+
+Every model is a frozen dataclass with one method,
+``acceleration(speed, grade, elevation) -> m/s^2``, vectorised over numpy
+arrays. Three families compete; choose one by its registry name:
+
+``power-limited``
+    The vehicle's maximum acceleration from tractive force against road
+    loads (Rakha et al. 2001; :mod:`mergecheck.dynamics`). Heavy vehicles
+    (trucks, buses, recreational vehicles) merge at or near full power.
+``linear-decreasing``
+    Driver-chosen acceleration of passenger cars, linear-decreasing in speed
+    (Long 2000), reduced on upgrades, and never more than the car's physical
+    capability.
+``tabulated``
+    Acceleration against speed measured in the field or taken from an
+    agency's curves, interpolated, with a grade response.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Protocol
+
+import numpy as np
+from numpy.typing import ArrayLike, NDArray
+
+from .dynamics import STANDARD_GRAVITY, PowerLimitedVehicle
+
+FloatArray = NDArray[np.float64]
+
+
+class AccelerationModel(Protocol):
+    """What the trajectory integrator needs from a vehicle."""
+
+    def acceleration(self, speed: ArrayLike, grade: ArrayLike, elevation: ArrayLike = 0.0) -> FloatArray:
+        """Acceleration at a speed [m/s], grade [fraction] and elevation [m]. [m/s^2]"""
+        ...
+
+
+@dataclass(frozen=True, slots=True)
+class PowerLimited:
+    """Full-performance acceleration of a power-limited vehicle.
+
+    .. math:: a = \\frac{F_t(v) - R_a(v) - R_r(v) - R_g}{\\lambda m}
+
+    See :mod:`mergecheck.dynamics` for the terms and references. Validity:
+    the calibration range of Rakha et al. (2001), trucks of 85 to 169 kg/kW;
+    grades to about 8 %.
+    """
+
+    vehicle: PowerLimitedVehicle
+
+    def acceleration(self, speed: ArrayLike, grade: ArrayLike, elevation: ArrayLike = 0.0) -> FloatArray:
+        return self.vehicle.acceleration(speed, grade, elevation)
+
+
+@dataclass(frozen=True, slots=True)
+class LinearDecreasing:
+    """Driver-chosen acceleration, linear-decreasing in speed, capped by capability.
+
+    .. math::
+
+        a(v, G) = \\min\\big(\\alpha - \\beta v - \\kappa\\, g\\, G,\\;
+                             a_{max}(v, G)\\big)                   (1)
+
+    The level-grade part alpha - beta*v is the linear-decreasing model of
+    Long (2000), which represents both capability and behaviour better than a
+    constant rate; on level grade it integrates in closed form:
+
+    .. math::
+
+        v(t) = \\frac{\\alpha}{\\beta}(1 - e^{-\\beta t}) + v_0 e^{-\\beta t}   (2)
+
+        x(v) = \\frac{1}{\\beta}\\left[(v_0 - v) + \\frac{\\alpha}{\\beta}
+               \\ln\\frac{\\alpha - \\beta v_0}{\\alpha - \\beta v}\\right]     (3)
+
+    kappa is the share of the grade force a driver does not make up with
+    extra throttle (0: ignores the grade; 1: keeps the same throttle as on
+    the level). a_max is the car's power-limited capability; when the
+    capability binds, the driver uses all of it.
+
+    The passenger-car defaults are calibrated (``scripts/calibrate_passenger_car.py``)
+    to the policy acceleration lengths and 3-4 % upgrade factors of the AASHTO
+    Green Book (6th ed. 2011, table values transcribed from memory). Validity:
+    merge speeds to about 90 km/h (the policy table's range) and grades within
+    +/- 6 %; beyond them the model is an extrapolation.
+
+    References
+    ----------
+    Long, G. (2000). "Acceleration characteristics of starting vehicles."
+    Transportation Research Record 1737, 58-70.
+    """
+
+    alpha: float
+    """Acceleration intercept at zero speed on level grade. [m/s^2]"""
+    beta: float
+    """Rate at which chosen acceleration falls with speed. [1/s]"""
+    grade_response: float
+    """kappa: share of the grade force the driver does not compensate. [-]"""
+    capability: PowerLimitedVehicle | None = None
+    """Physical capability that caps the chosen acceleration."""
+
+    def chosen(self, speed: ArrayLike, grade: ArrayLike) -> FloatArray:
+        """The driver's choice before the capability cap, Eq. (1) first term. [m/s^2]"""
+        v = np.asarray(speed, dtype=float)
+        return self.alpha - self.beta * v - self.grade_response * STANDARD_GRAVITY * np.asarray(grade, dtype=float)
+
+    def acceleration(self, speed: ArrayLike, grade: ArrayLike, elevation: ArrayLike = 0.0) -> FloatArray:
+        chosen = self.chosen(speed, grade)  # Eq. (1)
+        if self.capability is None:
+            return chosen
+        return np.minimum(chosen, self.capability.acceleration(speed, grade, elevation))
+
+
+@dataclass(frozen=True, slots=True)
+class Tabulated:
+    """Acceleration against speed from measurements, with a grade response.
+
+    .. math:: a(v, G) = \\tilde a(v) - \\kappa\\, g\\, G
+
+    with tilde-a the piecewise-linear interpolation of the table (measured
+    on near-level grade) and the end values held beyond the table. kappa = 1
+    (the default) treats the table as the vehicle's capability, which loses
+    the whole grade force on an upgrade.
+    """
+
+    speeds: tuple[float, ...]
+    """Table speeds, strictly increasing. [m/s]"""
+    accelerations: tuple[float, ...]
+    """Acceleration at each table speed on level grade. [m/s^2]"""
+    grade_response: float = 1.0
+    """kappa. [-]"""
+
+    def acceleration(self, speed: ArrayLike, grade: ArrayLike, elevation: ArrayLike = 0.0) -> FloatArray:
+        level = np.interp(np.asarray(speed, dtype=float), self.speeds, self.accelerations)
+        return level - self.grade_response * STANDARD_GRAVITY * np.asarray(grade, dtype=float)
+
+
+@dataclass(frozen=True, slots=True)
+class ModelEntry:
+    """One acceleration-model family in the registry."""
+
+    model: type
+    summary: str
+    validity: str
+    reference: str
+
+
+ACCELERATION_MODELS: dict[str, ModelEntry] = {
+    "power-limited": ModelEntry(
+        PowerLimited,
+        "tractive force against aerodynamic, rolling and grade resistance",
+        "trucks of 85 to 169 kg/kW (calibration range of the reference); grades to about 8 %",
+        "Rakha, Lucic, Demarchi, Setti and Van Aerde (2001), J. Transp. Eng. 127(5), 418-425;"
+        " Rakha and Lucic (2002), J. Transp. Eng. 128(5), 412-419",
+    ),
+    "linear-decreasing": ModelEntry(
+        LinearDecreasing,
+        "driver-chosen acceleration alpha - beta*v - kappa*g*G, capped by capability",
+        "passenger cars; merge speeds to about 90 km/h, grades within +/- 6 %",
+        "Long (2000), Transportation Research Record 1737, 58-70; calibrated to AASHTO Green Book"
+        " 6th ed. (2011) acceleration lengths and grade factors (transcribed from memory)",
+    ),
+    "tabulated": ModelEntry(
+        Tabulated,
+        "acceleration against speed from measurements, interpolated, minus kappa*g*G",
+        "the speed range of the table",
+        "user data",
+    ),
+}
+
+
+def model_entry(name: str) -> ModelEntry:
+    """The registry entry for a model name; an unknown name lists the valid ones."""
+    try:
+        return ACCELERATION_MODELS[name]
+    except KeyError:
+        valid = ", ".join(sorted(ACCELERATION_MODELS))
+        raise KeyError(f"unknown acceleration model {name!r}; valid models: {valid}") from None

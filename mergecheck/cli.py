@@ -1,0 +1,144 @@
+"""Command line: parse arguments, load, call the core, render, exit.
+
+Exit codes: 0 done (all checks pass), 1 a check falls short, 2 bad input.
+"""
+
+from __future__ import annotations
+
+import argparse
+import os
+import sys
+import tempfile
+from collections.abc import Sequence
+from pathlib import Path
+
+from pydantic import ValidationError
+from rich.console import Console
+
+from .errors import InputError
+from .figures import vehicle_figures
+from .inputs import ProfileFile, build_profile, read_yaml
+from .profile import VerticalProfile
+from .report import json_report, terminal
+from .results import AccelerationRun
+from .trajectory import accelerate
+from .units import parse_quantity
+from .vehicles import load_bundled, load_vehicle, pydantic_error
+
+EXIT_OK, EXIT_SHORT, EXIT_INPUT = 0, 1, 2
+
+
+class _Parser(argparse.ArgumentParser):
+    def error(self, message: str) -> None:  # argparse's own usage errors: exit 2, no traceback
+        self.print_usage(sys.stderr)
+        self.exit(EXIT_INPUT, f"mergecheck: error: {message}\n")
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = _Parser(prog="mergecheck", description="Check an entrance ramp's acceleration lane and merge.")
+    commands = parser.add_subparsers(dest="command", required=True, parser_class=_Parser)
+
+    listing = commands.add_parser("vehicles", help="list the bundled design vehicles and their key figures")
+    listing.add_argument("--units", choices=["si", "us"], default="si", help="unit system for display")
+    listing.add_argument("--json", action="store_true", help="write JSON (SI values) to standard output")
+
+    accel = commands.add_parser("accel", help="speed of one design vehicle along a grade or profile")
+    accel.add_argument("--vehicle", required=True, help="bundled vehicle id or path of a profile file")
+    accel.add_argument("--from", dest="initial", required=True, help="initial speed, e.g. '0 mph' or '50 km/h'")
+    accel.add_argument("--to", dest="target", required=True, help="target speed, e.g. '53 mph'")
+    where = accel.add_mutually_exclusive_group(required=True)
+    where.add_argument("--grade", help="one constant grade, e.g. '4 %%'")
+    where.add_argument("--profile", help="YAML file with a list of grades by station (see README)")
+    accel.add_argument("--elevation", help="elevation above sea level at the start, e.g. '1500 m' (default 0 m)")
+    accel.add_argument("--units", choices=["si", "us"], default="si", help="unit system for display")
+    accel.add_argument("--json", action="store_true", help="write JSON (SI values) to standard output")
+    return parser
+
+
+def main(argv: Sequence[str] | None = None) -> int:
+    args = build_parser().parse_args(argv)
+    stdout = Console(width=100 if not sys.stdout.isatty() else None, highlight=False)
+    stderr = Console(stderr=True, highlight=False)
+    try:
+        match args.command:
+            case "vehicles":
+                return _vehicles(args, stdout)
+            case "accel":
+                return _accel(args, stdout)
+    except InputError as error:
+        stderr.print(f"[bold red]mergecheck: error:[/] {error}", markup=True, soft_wrap=True)
+        return EXIT_INPUT
+    raise AssertionError(f"unhandled command {args.command}")
+
+
+def _vehicles(args: argparse.Namespace, out: Console) -> int:
+    figures = [vehicle_figures(v) for v in load_bundled()]
+    if args.json:
+        sys.stdout.write(json_report.dumps(json_report.vehicles_json(figures)))
+    else:
+        out.print(terminal.vehicles_view(figures, args.units))
+    return EXIT_OK
+
+
+def _accel(args: argparse.Namespace, out: Console) -> int:
+    vehicle = load_vehicle(args.vehicle)
+    initial = parse_quantity(args.initial, "speed", source="command line", field="--from")
+    target = parse_quantity(args.target, "speed", source="command line", field="--to")
+    for name, value in (("--from", initial), ("--to", target)):
+        if value < 0:
+            raise InputError("command line", name, "a speed must not be negative")
+    elevation = 0.0
+    if args.elevation is not None:
+        elevation = parse_quantity(args.elevation, "length", source="command line", field="--elevation")
+    if args.grade is not None:
+        profile = build_profile_from_grade(args.grade)
+    else:
+        profile, file_elevation = load_profile_file(args.profile)
+        if args.elevation is None:
+            elevation = file_elevation
+    if not -500.0 <= elevation <= 5000.0:
+        raise InputError("command line" if args.elevation else args.profile, "elevation", "must lie between -500 m and 5000 m")
+    trajectory = accelerate(vehicle.model, profile, initial, target, elevation=elevation)
+    run = AccelerationRun(vehicle=vehicle, profile=profile, elevation=elevation, trajectory=trajectory)
+    if args.json:
+        sys.stdout.write(json_report.dumps(json_report.acceleration_json(run)))
+    else:
+        out.print(terminal.acceleration_view(run, args.units))
+    return EXIT_OK
+
+
+def build_profile_from_grade(text: str) -> VerticalProfile:
+    from .inputs import MAX_GRADE
+
+    grade = parse_quantity(text, "grade", source="command line", field="--grade")
+    if abs(grade) > MAX_GRADE:
+        raise InputError("command line", "--grade", f"{text} is steeper than the {MAX_GRADE:.0%} any standard allows")
+    return VerticalProfile.constant(grade)
+
+
+def load_profile_file(path: str) -> tuple[VerticalProfile, float]:
+    raw = read_yaml(path)
+    if not isinstance(raw, dict):
+        raise InputError(path, "", "a profile file must be a mapping with a 'profile' list")
+    try:
+        data = ProfileFile.model_validate(raw)
+    except ValidationError as error:
+        raise pydantic_error(error, path) from None
+    elevation = 0.0
+    if data.elevation is not None:
+        elevation = parse_quantity(data.elevation, "length", source=path, field="elevation")
+    return build_profile(data.profile, path, "profile"), elevation
+
+
+def write_whole(path: str, text: str) -> None:
+    """Write a file whole or not at all (temporary file, then an atomic rename)."""
+    target = Path(path)
+    directory = target.parent if str(target.parent) else Path(".")
+    handle, temporary = tempfile.mkstemp(dir=directory, prefix=f".{target.name}.", suffix=".part")
+    try:
+        with os.fdopen(handle, "w", encoding="utf-8") as stream:
+            stream.write(text)
+        os.replace(temporary, target)
+    except BaseException:
+        Path(temporary).unlink(missing_ok=True)
+        raise

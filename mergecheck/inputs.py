@@ -1,0 +1,90 @@
+"""Reading common input pieces from YAML: vertical profiles and files.
+
+Shared by the ``accel`` command's profile file and the site file.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Any
+
+import yaml
+from pydantic import BaseModel, ConfigDict, Field
+
+from .errors import InputError
+from .profile import GradeChange, VerticalProfile
+from .units import parse_quantity
+
+MAX_GRADE = 0.10
+"""Steepest grade accepted. [fraction] Ramp grades above 8 % are outside the
+ranges of the AASHTO Green Book (7th ed. 2018, Section 10.9.6) and of other
+standards we know of (from memory); 10 % leaves room for a local exception."""
+
+
+class GradePoint(BaseModel):
+    """One entry of a profile: the grade from a station on (YAML keys ``from``, ``grade``)."""
+
+    model_config = ConfigDict(extra="forbid", frozen=True, populate_by_name=True)
+    start: str = Field(alias="from", description="Station where this grade begins (the PVI), e.g. '250 m'.")
+    grade: str = Field(description="Grade from this station on, e.g. '3 %' (negative for a downgrade).")
+    vertical_curve: str | None = Field(
+        default=None, description="Length of a symmetric vertical curve centred on the PVI, e.g. '120 m'."
+    )
+
+
+class ProfileFile(BaseModel):
+    """The ``accel --profile`` file: a list of grade points and an optional elevation."""
+
+    model_config = ConfigDict(extra="forbid", frozen=True)
+    elevation: str | None = Field(default=None, description="Elevation above sea level at station 0, e.g. '850 m'.")
+    profile: list[GradePoint] = Field(min_length=1)
+
+
+def build_profile(points: list[GradePoint], source: str, field: str) -> VerticalProfile:
+    """Turn grade points into a :class:`VerticalProfile`, checking the rules.
+
+    Rules: the first point is at station 0; stations increase; vertical
+    curves have positive length and do not overlap each other or station 0;
+    grades lie within +/- 10 %.
+    """
+    stations: list[float] = []
+    grades: list[float] = []
+    curves: list[float] = []
+    for i, point in enumerate(points):
+        where = f"{field}.{i}"
+        station = parse_quantity(point.start, "length", source=source, field=f"{where}.from")
+        grade = parse_quantity(point.grade, "grade", source=source, field=f"{where}.grade")
+        if abs(grade) > MAX_GRADE:
+            raise InputError(source, f"{where}.grade", f"{point.grade} is steeper than the {MAX_GRADE:.0%} any standard allows")
+        curve = 0.0
+        if point.vertical_curve is not None:
+            curve = parse_quantity(point.vertical_curve, "length", source=source, field=f"{where}.vertical_curve")
+            if curve <= 0:
+                raise InputError(source, f"{where}.vertical_curve", "a vertical curve must have a positive length")
+            if i == 0:
+                raise InputError(source, f"{where}.vertical_curve", "the first grade has no incoming grade to curve from")
+        if i == 0 and station != 0:
+            raise InputError(source, f"{where}.from", "the first grade must start at station 0")
+        if i > 0 and station <= stations[-1]:
+            raise InputError(source, f"{where}.from", "stations must increase from one grade to the next")
+        if i > 0:
+            previous_end = stations[-1] + curves[-1] / 2
+            if station - curve / 2 < max(previous_end, 0.0):
+                raise InputError(source, f"{where}.vertical_curve", "vertical curve overlaps the previous one or station 0")
+        stations.append(station)
+        grades.append(grade)
+        curves.append(curve)
+    changes = tuple(GradeChange(s, g, c) for s, g, c in zip(stations[1:], grades[1:], curves[1:], strict=True))
+    return VerticalProfile(initial_grade=grades[0], changes=changes)
+
+
+def read_yaml(path: str) -> Any:
+    """Load a YAML file safely; unreadable or malformed files raise :class:`InputError`."""
+    try:
+        text = Path(path).read_text(encoding="utf-8")
+    except OSError as error:
+        raise InputError(path, "", f"cannot read the file: {error.strerror}") from None
+    try:
+        return yaml.safe_load(text)
+    except yaml.YAMLError as error:
+        raise InputError(path, "", f"not valid YAML: {error}") from None

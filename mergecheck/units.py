@@ -1,0 +1,149 @@
+"""Units at the edges: parse quantities from text, format results for display.
+
+The package keeps one pint registry (``ureg``). Everything inside the package
+is SI floats; pint is used only where files and arguments are read and where
+results are shown.
+
+The registry is taught two traffic units: ``veh`` (a vehicle, dimensionless
+count) and ``pc`` (a passenger car, also a count; pint's default reads ``pc``
+as a parsec, which would turn "1800 pc/h" into a speed).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+from typing import Literal
+
+import pint
+
+ureg = pint.UnitRegistry()
+ureg.define("vehicle = [] = veh")
+ureg.define("passenger_car = [] = pc = pcu")
+
+UnitSystem = Literal["si", "us"]
+
+# Expected dimension of each kind of quantity, and the SI unit it is stored in.
+_KINDS: dict[str, tuple[str, str]] = {
+    "speed": ("m/s", "a speed such as '65 mph' or '100 km/h'"),
+    "length": ("m", "a length such as '1200 ft' or '350 m'"),
+    "grade": ("", "a grade such as '4 %' or '-2.5 %'"),
+    "time": ("s", "a time such as '4.5 s'"),
+    "mass": ("kg", "a mass such as '36000 kg' or '80000 lb'"),
+    "power": ("W", "a power such as '300 kW' or '400 hp'"),
+    "weight_to_power": ("kg/W", "a weight-to-power ratio such as '120 kg/kW' or '200 lb/hp'"),
+    "acceleration": ("m/s**2", "an acceleration such as '1.2 m/s^2'"),
+    "flow": ("1/s", "a flow such as '1400 veh/h'"),
+    "area": ("m**2", "an area such as '10 m^2'"),
+    "frequency": ("1/s", "a rate such as '0.03 1/s'"),
+}
+
+
+def parse_quantity(text: object, kind: str, *, source: str, field: str) -> float:
+    """Parse a string with units into an SI float.
+
+    Parameters
+    ----------
+    text
+        The value as written by the user, e.g. ``"65 mph"`` or ``"4 %"``. A
+        bare number is refused for every kind, grades included: the unit is
+        what tells "4 %" from a fraction of 4.
+    kind
+        One of the keys of ``_KINDS`` (speed, length, grade, ...).
+    source, field
+        Where the value came from, for the error message.
+
+    Returns
+    -------
+    float
+        The value in SI units (m, s, m/s, kg, W, kg/W, grade as a fraction).
+    """
+    si_unit, example = _KINDS[kind]
+    if isinstance(text, bool) or text is None:
+        raise _bad(source, field, f"expected {example}, got {text!r}")
+    if isinstance(text, (int, float)):
+        raise _bad(source, field, f"a unit is required: expected {example}, got the bare number {text!r}")
+    if not isinstance(text, str):
+        raise _bad(source, field, f"expected {example}, got {text!r}")
+    try:
+        quantity = ureg.Quantity(text.strip())
+    except (pint.errors.PintError, ValueError, TypeError, AttributeError, SyntaxError):
+        raise _bad(source, field, f"cannot read {text!r} as a quantity: expected {example}") from None
+    if not isinstance(quantity, pint.Quantity):
+        raise _bad(source, field, f"a unit is required: expected {example}, got {text!r}")
+    if quantity.dimensionless and quantity.units == ureg.dimensionless:
+        raise _bad(source, field, f"a unit is required: expected {example}, got {text!r}")
+    try:
+        value = float(quantity.to(si_unit or "dimensionless").magnitude)
+    except pint.errors.DimensionalityError:
+        raise _bad(source, field, f"wrong kind of quantity {text!r}: expected {example}") from None
+    if not math.isfinite(value):
+        raise _bad(source, field, f"{text!r} is not a finite number")
+    return value
+
+
+def _bad(source: str, field: str, rule: str) -> Exception:
+    from .errors import InputError
+
+    return InputError(source, field, rule)
+
+
+@dataclass(frozen=True, slots=True)
+class DisplayUnit:
+    """How one kind of quantity is shown: unit symbol and factor from SI."""
+
+    symbol: str
+    per_si: float
+    digits: int
+
+    def value(self, si_value: float) -> float:
+        return si_value * self.per_si
+
+    def text(self, si_value: float | None) -> str:
+        if si_value is None or not math.isfinite(si_value):
+            return "-"
+        return f"{si_value * self.per_si:.{self.digits}f} {self.symbol}".strip()
+
+
+def _factor(unit: str, si_unit: str) -> float:
+    return float(ureg.Quantity(1.0, si_unit).to(unit).magnitude)
+
+
+DISPLAY: dict[UnitSystem, dict[str, DisplayUnit]] = {
+    "si": {
+        "speed": DisplayUnit("km/h", _factor("km/h", "m/s"), 1),
+        "length": DisplayUnit("m", 1.0, 0),
+        "time": DisplayUnit("s", 1.0, 1),
+        "grade": DisplayUnit("%", 100.0, 1),
+        "acceleration": DisplayUnit("m/s²", 1.0, 2),
+        "weight_to_power": DisplayUnit("kg/kW", _factor("kg/kW", "kg/W"), 0),
+        "mass": DisplayUnit("kg", 1.0, 0),
+        "power": DisplayUnit("kW", 1e-3, 0),
+        "flow": DisplayUnit("veh/h", 3600.0, 0),
+    },
+    "us": {
+        "speed": DisplayUnit("mph", _factor("mph", "m/s"), 1),
+        "length": DisplayUnit("ft", _factor("ft", "m"), 0),
+        "time": DisplayUnit("s", 1.0, 1),
+        "grade": DisplayUnit("%", 100.0, 1),
+        "acceleration": DisplayUnit("ft/s²", _factor("ft/s**2", "m/s**2"), 2),
+        "weight_to_power": DisplayUnit("lb/hp", _factor("lb/hp", "kg/W"), 0),
+        "mass": DisplayUnit("lb", _factor("lb", "kg"), 0),
+        "power": DisplayUnit("hp", _factor("hp", "W"), 0),
+        "flow": DisplayUnit("veh/h", 3600.0, 0),
+    },
+}
+
+
+def show(si_value: float | None, kind: str, system: UnitSystem) -> str:
+    """Format an SI value in the chosen unit system, e.g. ``show(25, 'speed', 'us')``."""
+    return DISPLAY[system][kind].text(si_value)
+
+
+def convert(si_value: float, kind: str, system: UnitSystem) -> float:
+    """An SI value expressed in the chosen system's display unit."""
+    return DISPLAY[system][kind].value(si_value)
+
+
+def unit_symbol(kind: str, system: UnitSystem) -> str:
+    return DISPLAY[system][kind].symbol
