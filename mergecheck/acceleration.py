@@ -82,7 +82,11 @@ class LinearDecreasing:
 
     The passenger-car defaults are calibrated (``scripts/calibrate_passenger_car.py``)
     to the policy acceleration lengths and 3-4 % upgrade factors of the AASHTO
-    Green Book (6th ed. 2011, table values transcribed from memory). Validity:
+    Green Book (6th ed. 2011, table values transcribed from memory): alpha =
+    1.0518 m/s^2, beta = 0.02824 1/s, kappa = 0.5187. Residuals of the
+    calibration: the 58 level-grade lengths, rms 5.5 %, largest 13.3 % (the
+    30 mph / stop cell, which also stands out in the table's own implied
+    acceleration); the 13 grade factors, rms 3.2 %, largest 5.5 %. Validity:
     merge speeds to about 90 km/h (the policy table's range) and grades within
     +/- 6 %; beyond them the model is an extrapolation.
 

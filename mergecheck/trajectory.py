@@ -97,8 +97,17 @@ class Trajectory:
         return np.sqrt(np.interp(x, self.station, self.speed**2))
 
     def time_at(self, station: ArrayLike) -> FloatArray:
-        """Time at stations within the integrated range. [s]"""
-        return np.interp(np.asarray(station, dtype=float), self.station, self.time)
+        """Time at stations within the integrated range. [s]
+
+        Between samples, t = t_i + 2 (x - x_i) / (v_i + v(x)), exact for
+        constant acceleration.
+        """
+        x = np.asarray(station, dtype=float)
+        i = np.clip(np.searchsorted(self.station, x, side="right") - 1, 0, self.station.size - 1)
+        v = self.speed_at(x)
+        gap = x - self.station[i]
+        step = np.divide(2.0 * gap, self.speed[i] + v, out=np.zeros_like(gap), where=gap > 0)
+        return np.asarray(self.time[i] + step, dtype=float)
 
 
 def equilibrium_speed(
@@ -208,6 +217,7 @@ def accelerate(
     def reach(x: float, y: NDArray[np.float64]) -> float:
         return float(y[0] - u_target)
 
+    reach.terminal = True  # type: ignore[attr-defined]
     reach.direction = 1.0  # type: ignore[attr-defined]
 
     def stall(x: float, y: NDArray[np.float64]) -> float:
@@ -242,6 +252,8 @@ def accelerate(
         ahead = breakpoints[breakpoints > x + 1e-9]
         segment_end = float(ahead[0]) if ahead.size else x + _CHUNK
         segment_end = min(segment_end, end_limit)
+        if target_x is not None:
+            segment_end = min(segment_end, through)
         solution = solve_ivp(
             rhs,
             (x, segment_end),
@@ -249,7 +261,7 @@ def accelerate(
             method="DOP853",
             rtol=1e-10,
             atol=[1e-9, 1e-9],
-            events=[reach, stall],
+            events=[reach, stall] if target_x is None else [stall],
             dense_output=True,
         )
         x_end = float(solution.t[-1])
@@ -265,10 +277,10 @@ def accelerate(
         stations.append(x)
         speeds.append(math.sqrt(max(2 * u, 0.0)))
         times.append(t)
-        if target_x is None and solution.t_events[0].size:
-            target_x = float(solution.t_events[0][0])
-            target_t = float(solution.y_events[0][0][1])
-        if solution.t_events[1].size:
+        events = dict(zip(["reach", "stall"] if target_x is None else ["stall"], solution.t_events, strict=True))
+        if events.get("reach", np.empty(0)).size:
+            target_x, target_t = x, t
+        if events["stall"].size:
             stalled, crawl = True, 0.0
             break
         if x >= end_limit - 1e-9:

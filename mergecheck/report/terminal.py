@@ -83,7 +83,7 @@ def vehicles_view(figures: list[VehicleFigures], system: UnitSystem) -> Renderab
     table.add_column(f"W/P ({unit_symbol('weight_to_power', system)})", justify="right")
     for grade, _ in figures[0].sustained_speeds if figures else ():
         table.add_column(f"Held {grade:.0%} ({unit_symbol('speed', system)})", justify="right")
-    table.add_column(f"0-{show(80 / 3.6, 'speed', system)}, level", justify="right")
+    table.add_column(f"Stop to {show(80 / 3.6, 'speed', system)}", justify="right", no_wrap=True)
     for f in figures:
         wp = "-" if f.weight_to_power is None else f"{convert(f.weight_to_power, 'weight_to_power', system):.0f}"
         held = ["> 250" if v is None else f"{convert(v, 'speed', system):.0f}" for _, v in f.sustained_speeds]

@@ -1,0 +1,89 @@
+"""Shared fixtures: published tables as data, and a runner for the real command line."""
+
+from __future__ import annotations
+
+import json
+import subprocess
+import sys
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import pytest
+import yaml
+
+DATA = Path(__file__).parent / "data"
+REPO = Path(__file__).parent.parent
+MPH = 0.44704  # m/s, exact by definition
+FT = 0.3048  # m, exact by definition
+
+
+@dataclass(frozen=True)
+class PolicyCell:
+    highway_speed_mph: int
+    merge_speed: float  # m/s
+    initial_speed: float  # m/s
+    length: float  # m
+
+
+@pytest.fixture(scope="session")
+def green_book_lengths() -> list[PolicyCell]:
+    """Every cell of the Green Book 2011 acceleration-length table (FROM MEMORY, see the file)."""
+    table = yaml.safe_load((DATA / "green_book_2011_acceleration_lengths.yaml").read_text())
+    initial = table["initial_speeds_mph"]
+    return [
+        PolicyCell(row[0], row[1] * MPH, initial[i] * MPH, length * FT)
+        for row in table["rows"]
+        for i, length in enumerate(row[2:])
+    ]
+
+
+@pytest.fixture(scope="session")
+def green_book_grade_factors() -> list[tuple[int, float, float, float]]:
+    """(V mph, Va m/s, Va' m/s, factor) for the 3-4 % upgrade block (FROM MEMORY)."""
+    table = yaml.safe_load((DATA / "green_book_2011_acceleration_lengths.yaml").read_text())
+    merge = {row[0]: row[1] for row in table["rows"]}
+    initial = table["grade_factor_ramp_initial_speeds_mph"]
+    return [
+        (row[0], merge[row[0]] * MPH, initial[i] * MPH, factor)
+        for row in table["grade_factors"]
+        for i, factor in enumerate(row[1:])
+    ]
+
+
+@dataclass(frozen=True)
+class Run:
+    code: int
+    stdout: str
+    stderr: str
+
+    def json(self) -> Any:
+        return json.loads(self.stdout)
+
+
+def run_cli(*args: str | Path, cwd: Path | None = None) -> Run:
+    """Run ``python -m mergecheck`` as a user would, in a subprocess.
+
+    The working directory defaults to tests/, which holds no package, so the
+    installed copy of mergecheck is the one that runs.
+    """
+    done = subprocess.run(
+        [sys.executable, "-m", "mergecheck", *map(str, args)],
+        capture_output=True,
+        text=True,
+        cwd=cwd or Path(__file__).parent,
+        timeout=300,
+    )
+    return Run(done.returncode, done.stdout, done.stderr)
+
+
+@pytest.fixture(scope="session")
+def cli() -> Any:
+    """The command-line runner (see :func:`run_cli`)."""
+    return run_cli
+
+
+@pytest.fixture(scope="session")
+def repo() -> Path:
+    """The repository root (for examples/)."""
+    return REPO
