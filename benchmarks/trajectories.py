@@ -1,0 +1,36 @@
+"""Benchmark: trajectories per second for a mix of design vehicles and profiles.
+
+Run: ``python benchmarks/trajectories.py`` (prints figures; not a test).
+"""
+
+from __future__ import annotations
+
+import itertools
+import time
+
+from mergecheck.profile import GradeChange, VerticalProfile
+from mergecheck.trajectory import accelerate
+from mergecheck.vehicles import load_bundled
+
+PROFILES = {
+    "level": VerticalProfile.constant(0.0),
+    "3 % upgrade": VerticalProfile.constant(0.03),
+    "5 % then 1 %, 150 m curve": VerticalProfile(0.05, (GradeChange(250.0, 0.01, 150.0),)),
+    "-2 % then 4 %": VerticalProfile(-0.02, (GradeChange(200.0, 0.04, 0.0),)),
+}
+CASES = [(0.0, 80 / 3.6), (50 / 3.6, 95 / 3.6)]
+
+
+def main() -> None:
+    vehicles = load_bundled()
+    runs = list(itertools.product(vehicles, PROFILES.items(), CASES))
+    start = time.perf_counter()
+    for vehicle, (_, profile), (v0, v1) in runs:
+        accelerate(vehicle.model, profile, v0, v1, through=600.0)
+    elapsed = time.perf_counter() - start
+    print(f"{len(runs)} trajectories ({len(vehicles)} vehicles x {len(PROFILES)} profiles x {len(CASES)} speed pairs)")
+    print(f"{elapsed:.2f} s, {len(runs) / elapsed:.1f} trajectories per second (single core)")
+
+
+if __name__ == "__main__":
+    main()
