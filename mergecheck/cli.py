@@ -15,12 +15,14 @@ from pathlib import Path
 from pydantic import ValidationError
 from rich.console import Console
 
+from .assessment import assess
 from .errors import InputError
 from .figures import vehicle_figures
 from .inputs import ProfileFile, build_profile, read_yaml
 from .profile import VerticalProfile
-from .report import json_report, terminal
+from .report import json_report, markdown, terminal
 from .results import AccelerationRun
+from .site import SiteInput, load_site
 from .trajectory import accelerate
 from .units import parse_quantity
 from .vehicles import load_bundled, load_vehicle, pydantic_error
@@ -52,6 +54,14 @@ def build_parser() -> argparse.ArgumentParser:
     accel.add_argument("--elevation", help="elevation above sea level at the start, e.g. '1500 m' (default 0 m)")
     accel.add_argument("--units", choices=["si", "us"], default="si", help="unit system for display")
     accel.add_argument("--json", action="store_true", help="write JSON (SI values) to standard output")
+
+    check = commands.add_parser("check", help="check an entrance ramp's acceleration lane (a site file)")
+    check.add_argument("site", help="site file (YAML)")
+    check.add_argument("--units", choices=["si", "us"], default="si", help="unit system for display")
+    check.add_argument("--json", nargs="?", const="-", metavar="FILE", help="write JSON (SI values) to FILE, or to standard output")
+    check.add_argument("--markdown", metavar="FILE", help="write the report as Markdown to FILE")
+
+    commands.add_parser("schema", help="print the JSON Schema of the site file")
     return parser
 
 
@@ -65,6 +75,11 @@ def main(argv: Sequence[str] | None = None) -> int:
                 return _vehicles(args, stdout)
             case "accel":
                 return _accel(args, stdout)
+            case "check":
+                return _check(args, stdout)
+            case "schema":
+                sys.stdout.write(json_report.dumps(site_schema()))
+                return EXIT_OK
     except InputError as error:
         stderr.print(f"[bold red]mergecheck: error:[/] {error}", markup=True, soft_wrap=True)
         return EXIT_INPUT
@@ -105,6 +120,34 @@ def _accel(args: argparse.Namespace, out: Console) -> int:
     else:
         out.print(terminal.acceleration_view(run, args.units))
     return EXIT_OK
+
+
+def _check(args: argparse.Namespace, out: Console) -> int:
+    assessment = assess(load_site(args.site))
+    documents: list[tuple[str, str]] = []
+    if args.json is not None:
+        documents.append((args.json, json_report.dumps(json_report.site_json(assessment))))
+    if args.markdown is not None:
+        documents.append((args.markdown, markdown.site_markdown(assessment, args.units)))
+    files = [(path, text) for path, text in documents if path != "-"]
+    for path, _ in files:
+        if not Path(path).resolve().parent.is_dir():
+            raise InputError("command line", path, "the folder for this output file does not exist")
+    for path, text in files:
+        write_whole(path, text)
+    if args.json == "-":
+        sys.stdout.write(documents[0][1])
+    else:
+        out.print(terminal.site_view(assessment, args.units))
+    return EXIT_OK if assessment.verdict == "meets" else EXIT_SHORT
+
+
+def site_schema() -> dict[str, object]:
+    """JSON Schema of the site file (field names as written in YAML)."""
+    schema = SiteInput.model_json_schema(by_alias=True)
+    schema["$schema"] = "https://json-schema.org/draft/2020-12/schema"
+    schema["title"] = "mergecheck site file"
+    return schema
 
 
 def build_profile_from_grade(text: str) -> VerticalProfile:

@@ -5,6 +5,7 @@ from __future__ import annotations
 import json
 from typing import Any
 
+from ..assessment import SiteAssessment
 from ..figures import VehicleFigures
 from ..results import AccelerationRun
 
@@ -59,3 +60,71 @@ def vehicles_json(figures: list[VehicleFigures]) -> list[dict[str, Any]]:
 
 def dumps(document: Any) -> str:
     return json.dumps(document, indent=2, ensure_ascii=False) + "\n"
+
+
+def site_json(assessment: SiteAssessment) -> dict[str, Any]:
+    """The ``check --json`` document (SI values, stable keys)."""
+    site = assessment.site
+    policy = assessment.policy
+    return {
+        "site": site.name,
+        "source": site.source,
+        "verdict": assessment.verdict,
+        "governing_vehicle": assessment.governing.vehicle.id,
+        "summary": assessment.summary,
+        "mainline": {
+            "design_speed_m_s": _number(site.design_speed),
+            "operating_speed_m_s": _number(site.operating_speed),
+            "lanes": site.lanes,
+            "adjacent_lane_flow_veh_h": _number(site.adjacent_lane_flow * 3600, 3),
+        },
+        "geometry": {
+            "entrance": site.entrance,
+            "convergence_station_m": _number(site.convergence, 3),
+            "taper_start_station_m": _number(site.taper_start, 3),
+            "taper_end_station_m": _number(site.taper_end, 3),
+            "lane_length_m": _number(site.lane_length, 3),
+            "taper_length_m": _number(site.taper_length, 3),
+            "average_grade_over_lane": _number(assessment.average_grade),
+            "elevation_m": _number(site.elevation, 3),
+        },
+        "initial_speed_m_s": _number(assessment.initial_speed),
+        "vehicles": [
+            {
+                "id": v.vehicle.id,
+                "name": v.vehicle.name,
+                "share": v.share,
+                "flow_veh_h": _number(v.flow * 3600, 3),
+                "verdict": v.verdict,
+                "merge_speed_m_s": _number(v.merge_speed),
+                "required_length_m": _number(v.required_length, 3),
+                "available_length_m": _number(v.available_length, 3),
+                "deficit_m": _number(v.deficit, 3),
+                "merge_station_m": _number(v.merge_station, 3),
+                "speed_at_convergence_m_s": _number(v.speed_at_convergence),
+                "speed_at_lane_end_m_s": _number(v.speed_at_taper_start),
+                "speed_at_taper_end_m_s": _number(v.speed_at_taper_end),
+                "speed_differential_at_lane_end_m_s": _number(v.speed_differential_at_lane_end),
+                "large_speed_differential": v.large_differential,
+                "crawl_speed_m_s": _number(v.crawl_speed),
+            }
+            for v in assessment.vehicles
+        ],
+        "policy": None
+        if policy is None
+        else {
+            "minimum_length_m": _number(policy.minimum_length, 3),
+            "level_length_m": _number(policy.level_length, 3),
+            "grade_factor": _number(policy.grade_factor, 4),
+            "merge_speed_m_s": _number(policy.merge_speed),
+            "note": policy.note,
+            "title": policy.table.title,
+            "source": policy.table.source,
+            "caution": policy.table.caution,
+            "length_definition": policy.table.length_definition,
+            "interpolation": policy.table.interpolation,
+            "table": policy.table.origin,
+        },
+        "assumptions": [{"name": a.name, "value": a.value, "source": a.source} for a in assessment.assumptions],
+        "cautions": list(assessment.cautions),
+    }

@@ -7,6 +7,7 @@ from rich.console import Group, RenderableType
 from rich.table import Table
 from rich.text import Text
 
+from ..assessment import SiteAssessment, summary_sentence
 from ..figures import VehicleFigures
 from ..results import AccelerationRun
 from ..units import UnitSystem, convert, show, unit_symbol
@@ -90,3 +91,95 @@ def vehicles_view(figures: list[VehicleFigures], system: UnitSystem) -> Renderab
         start = "-" if f.level_distance is None else f"{show(f.level_distance, 'length', system)}, {f.level_time:.0f} s"
         table.add_row(f.vehicle.id, f.vehicle.model_name, wp, *held, start)
     return table
+
+
+_VERDICT_STYLE = {"meets": "bold green", "short": "bold red", "cannot-reach": "bold red"}
+
+
+def site_view(assessment: SiteAssessment, system: UnitSystem) -> RenderableType:
+    """Verdict first, then speeds, lengths, policy, assumptions and cautions."""
+    site = assessment.site
+    unit_v, unit_l = unit_symbol("speed", system), unit_symbol("length", system)
+    verdict = Text.assemble(
+        ("Verdict: ", "bold"),
+        (assessment.verdict.upper(), _VERDICT_STYLE[assessment.verdict]),
+        ("   governing vehicle: ", "bold"),
+        (assessment.governing.vehicle.id, "bold"),
+    )
+    layout = Table.grid(padding=(0, 2))
+    layout.add_column(style="bold")
+    layout.add_column()
+    layout.add_row("Site", site.name)
+    layout.add_row(
+        "Mainline",
+        f"design {show(site.design_speed, 'speed', system)}, operating {show(site.operating_speed, 'speed', system)}, "
+        f"{site.lanes} lanes, adjacent lane {site.adjacent_lane_flow * 3600:.0f} veh/h",
+    )
+    ramp_start = "stop" if site.controlling_speed is None else f"controlling curve {show(site.controlling_speed, 'speed', system)}"
+    layout.add_row("Ramp", f"{ramp_start}, leaving at {show(assessment.initial_speed, 'speed', system)}, {site.ramp_flow * 3600:.0f} veh/h")
+    layout.add_row(
+        "Layout",
+        f"{site.entrance} entrance: convergence point at {show(site.convergence, 'length', system)}, lane "
+        f"{show(site.lane_length, 'length', system)}, taper {show(site.taper_length, 'length', system)}; "
+        f"average grade over the lane {assessment.average_grade:+.1%}",
+    )
+
+    speeds = Table(title="Speeds along the ramp", title_justify="left")
+    speeds.add_column("Vehicle", no_wrap=True)
+    for heading in ("Merge", "At conv. pt", "At lane end", "At taper end", "Δv lane end", "Crawl"):
+        speeds.add_column(f"{heading} ({unit_v})", justify="right")
+    for v in assessment.vehicles:
+        diff = f"{convert(v.speed_differential_at_lane_end, 'speed', system):.1f}"
+        speeds.add_row(
+            v.vehicle.id,
+            _num(v.merge_speed, "speed", system),
+            _num(v.speed_at_convergence, "speed", system),
+            _num(v.speed_at_taper_start, "speed", system),
+            _num(v.speed_at_taper_end, "speed", system),
+            Text(diff + (" ⚑" if v.large_differential else ""), style="red" if v.large_differential else ""),
+            _num(v.crawl_speed, "speed", system),
+        )
+
+    policy = assessment.policy
+    lengths = Table(title="Acceleration length (convergence point to merge speed)", title_justify="left")
+    lengths.add_column("Vehicle", no_wrap=True)
+    lengths.add_column("Share", justify="right")
+    for heading in ("Required", "Available", "Deficit"):
+        lengths.add_column(f"{heading} ({unit_l})", justify="right")
+    lengths.add_column("Verdict")
+    for v in assessment.vehicles:
+        required = "never" if v.required_length is None else _num(v.required_length, "length", system)
+        deficit = "-" if v.deficit is None else _num(v.deficit, "length", system)
+        lengths.add_row(
+            v.vehicle.id,
+            f"{v.share:.0%}",
+            required,
+            _num(v.available_length, "length", system),
+            deficit,
+            Text(v.verdict, style=_VERDICT_STYLE[v.verdict]),
+        )
+    if policy is not None:
+        value = "none" if policy.minimum_length is None else _num(policy.minimum_length, "length", system)
+        basis = policy.note
+        if policy.merge_speed is not None:
+            basis += f"; assumes merge at {show(policy.merge_speed, 'speed', system)}"
+        lengths.add_row("policy minimum", "", value, _num(site.available_length, "length", system), "", basis)
+
+    parts: list[RenderableType] = [verdict, Text(summary_sentence(assessment, system)), Text(""), layout, Text(""), speeds, lengths]
+    if policy is not None:
+        parts.append(Text(f"Policy: {policy.table.title}. {policy.table.source} Length measured: {policy.table.length_definition}", style="dim"))
+        if policy.table.caution:
+            parts.append(Text(f"Policy caution: {policy.table.caution}", style="yellow"))
+    assumptions = Table(title="Assumptions", title_justify="left", show_lines=False)
+    assumptions.add_column("Item", no_wrap=False, ratio=2)
+    assumptions.add_column("Value", ratio=2)
+    assumptions.add_column("Source", ratio=5)
+    for a in assessment.assumptions:
+        assumptions.add_row(a.name, a.value, a.source)
+    parts += [Text(""), assumptions, Text(""), Text("Cautions", style="bold")]
+    parts += [Text(f"• {c}") for c in assessment.cautions]
+    return Group(*parts)
+
+
+def _num(value: float | None, kind: str, system: UnitSystem) -> str:
+    return "-" if value is None else f"{convert(value, kind, system):.{0 if kind == 'length' else 1}f}"

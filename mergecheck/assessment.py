@@ -1,0 +1,274 @@
+"""Assess a site: every design vehicle's speed along the ramp, against the lane provided.
+
+For each design vehicle the trajectory from the end of the controlling curve
+(or the stop line) is integrated along the real profile
+(:func:`mergecheck.trajectory.accelerate`) and read at the landmarks. The
+required acceleration length is measured as the policy tables measure it:
+
+.. math:: L_{req} = \\max(0,\\; x_{merge} - x_{cp})
+
+with x_merge the station where the vehicle reaches its merge speed (the
+operating speed less the merge speed differential) and x_cp the convergence
+point. The vehicle meets the check when L_req <= L_avail (the lane length plus
+any taper credit); it is short when it reaches merge speed beyond that; and it
+cannot reach merge speed when its crawl speed on the final grade is lower.
+The governing vehicle is the one needing the longest lane (a vehicle that
+cannot reach merge speed governs over any that can; among those, the one with
+the lowest speed at the end of the lane).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Literal
+
+from .cautions import CAUTIONS
+from .policy import PolicyValue, initial_speed_for, load_policy, policy_minimum
+from .site import Site, SiteVehicle
+from .trajectory import Trajectory, accelerate
+from .units import show
+from .vehicles import DesignVehicle
+
+VehicleVerdict = Literal["meets", "short", "cannot-reach"]
+SiteVerdict = Literal["meets", "short"]
+_RANK: dict[VehicleVerdict, int] = {"meets": 0, "short": 1, "cannot-reach": 2}
+
+
+@dataclass(frozen=True, slots=True)
+class Assumption:
+    """One assumption behind the result: what, its value, and where it comes from."""
+
+    name: str
+    value: str
+    source: str
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class VehicleAssessment:
+    """One design vehicle at the site (SI units)."""
+
+    vehicle: DesignVehicle
+    share: float
+    flow: float
+    """This vehicle's share of the ramp flow. [veh/s]"""
+    initial_speed: float
+    """[m/s]"""
+    merge_speed: float
+    """[m/s]"""
+    merge_speed_differential: float
+    """[m/s]"""
+    trajectory: Trajectory
+    speed_at_convergence: float
+    """[m/s]"""
+    speed_at_taper_start: float
+    """Speed at the end of the full-width lane. [m/s]"""
+    speed_at_taper_end: float
+    """[m/s]"""
+    merge_station: float | None
+    """Station where merge speed is reached; None if never. [m]"""
+    required_length: float | None
+    """Convergence point to where merge speed is reached; None if never. [m]"""
+    available_length: float
+    """[m]"""
+    deficit: float | None
+    """How much longer the lane must be (0 when it meets); None if merge speed is never reached. [m]"""
+    speed_differential_at_lane_end: float
+    """Operating speed minus the vehicle's speed at the start of the taper. [m/s]"""
+    large_differential: bool
+    crawl_speed: float | None
+    """Crawl speed on the final grade when below merge speed. [m/s]"""
+    verdict: VehicleVerdict
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class SiteAssessment:
+    """Everything a report shows about one site."""
+
+    site: Site
+    vehicles: tuple[VehicleAssessment, ...]
+    governing: VehicleAssessment
+    verdict: SiteVerdict
+    initial_speed: float
+    """Speed leaving the controlling curve (0 from a stop). [m/s]"""
+    average_grade: float
+    """Average grade from the convergence point to the start of the taper. [fraction]"""
+    policy: PolicyValue | None
+    assumptions: tuple[Assumption, ...]
+    cautions: tuple[str, ...]
+
+    @property
+    def summary(self) -> str:
+        """The one sentence that matters, in SI units."""
+        return summary_sentence(self, "si")
+
+
+def assess_vehicle(site: Site, entry: SiteVehicle, initial_speed: float) -> VehicleAssessment:
+    """Integrate one design vehicle along the site and read it against the lane."""
+    trajectory = accelerate(
+        entry.vehicle.model,
+        site.profile,
+        initial_speed,
+        entry.merge_speed,
+        through=site.taper_end,
+        elevation=site.elevation,
+    )
+    at_convergence, at_taper_start, at_taper_end = (
+        float(v) for v in trajectory.speed_at([site.convergence, site.taper_start, site.taper_end])
+    )
+    merge_station = trajectory.target_station
+    available = site.available_length
+    required: float | None = None
+    deficit: float | None = None
+    verdict: VehicleVerdict = "cannot-reach"
+    if merge_station is not None:
+        required = max(0.0, merge_station - site.convergence)
+        deficit = max(0.0, required - available)
+        verdict = "meets" if required <= available else "short"
+    differential = site.operating_speed - at_taper_start
+    return VehicleAssessment(
+        vehicle=entry.vehicle,
+        share=entry.share,
+        flow=entry.share * site.ramp_flow,
+        initial_speed=initial_speed,
+        merge_speed=entry.merge_speed,
+        merge_speed_differential=entry.merge_speed_differential,
+        trajectory=trajectory,
+        speed_at_convergence=at_convergence,
+        speed_at_taper_start=at_taper_start,
+        speed_at_taper_end=at_taper_end,
+        merge_station=merge_station,
+        required_length=required,
+        available_length=available,
+        deficit=deficit,
+        speed_differential_at_lane_end=differential,
+        large_differential=differential > site.flag_speed_differential,
+        crawl_speed=trajectory.crawl_speed,
+        verdict=verdict,
+    )
+
+
+def governing_vehicle(results: tuple[VehicleAssessment, ...]) -> VehicleAssessment:
+    """The vehicle needing the longest lane (see the module docstring)."""
+
+    def need(result: VehicleAssessment) -> tuple[int, float]:
+        if result.required_length is None:
+            return (_RANK[result.verdict], -result.speed_at_taper_start)
+        return (_RANK[result.verdict], result.required_length)
+
+    return max(results, key=need)
+
+
+def assess(site: Site) -> SiteAssessment:
+    """Assess every design vehicle at a site and compare with the policy table."""
+    policy_table = None if site.policy_file == "none" else load_policy(site.policy_file)
+    initial, initial_basis = _initial_speed(site, policy_table)
+    results = tuple(assess_vehicle(site, entry, initial) for entry in site.vehicles)
+    governing = governing_vehicle(results)
+    rise = float(site.profile.elevation(site.taper_start) - site.profile.elevation(site.convergence))
+    average_grade = rise / site.lane_length
+    policy = None
+    if policy_table is not None:
+        policy = policy_minimum(policy_table, site.design_speed, site.controlling_speed, average_grade)
+    verdict: SiteVerdict = "meets" if all(r.verdict == "meets" for r in results) else "short"
+    return SiteAssessment(
+        site=site,
+        vehicles=results,
+        governing=governing,
+        verdict=verdict,
+        initial_speed=initial,
+        average_grade=average_grade,
+        policy=policy,
+        assumptions=_assumptions(site, results, initial, initial_basis, policy),
+        cautions=CAUTIONS,
+    )
+
+
+def _initial_speed(site: Site, table: object) -> tuple[float, str]:
+    from .policy import PolicyTable
+
+    if site.controlling_speed is None:
+        return 0.0, "ramp starts from a stop (stop line or ramp meter at station 0)"
+    if site.initial_speed is not None:
+        return site.initial_speed, "given in the site file"
+    if isinstance(table, PolicyTable):
+        value = initial_speed_for(table, site.controlling_speed)
+        if value is not None:
+            return value, f"the policy table's initial speed for this controlling speed ({table.title})"
+    return site.controlling_speed, "the controlling-curve design speed (no policy initial speed applies)"
+
+
+def _assumptions(
+    site: Site,
+    results: tuple[VehicleAssessment, ...],
+    initial: float,
+    initial_basis: str,
+    policy: PolicyValue | None,
+) -> tuple[Assumption, ...]:
+    items = [
+        Assumption(
+            "Mainline operating speed at the merge",
+            show(site.operating_speed, "speed", "si"),
+            "site file" if site.operating_speed_given else "not given: taken equal to the design speed (the conservative case)",
+        ),
+        Assumption("Speed leaving the controlling curve", show(initial, "speed", "si"), initial_basis),
+        Assumption(
+            "Merge speed",
+            "; ".join(f"{r.vehicle.id} {show(r.merge_speed, 'speed', 'si')}" for r in results),
+            "operating speed less the merge speed differential; policy tables use about 5 mph (8 km/h) "
+            "below the running speed for passenger cars (AASHTO Green Book basis, from memory)",
+        ),
+        Assumption(
+            "Acceleration length definition",
+            "convergence point to where merge speed is reached",
+            "as the policy acceleration-length tables measure it (convergence point to the start of the taper)",
+        ),
+        Assumption(
+            "Taper credit",
+            f"{site.taper_credit:.0%} of the taper counted as acceleration length",
+            "site file criteria (0 % is the policy-table definition)",
+        ),
+        Assumption(
+            "Large speed differential",
+            f"above {show(site.flag_speed_differential, 'speed', 'si')} at the end of the lane",
+            "crash involvement rises steeply as speed departs from the stream's (Solomon, 1964, from memory); "
+            "threshold is a site criterion",
+        ),
+        Assumption("Elevation at station 0", show(site.elevation, "length", "si"), "site file (0 m if not given); lowers air density and engine power"),
+        Assumption(
+            "Integration",
+            "speed integrated along distance, grade as a function of station",
+            "SciPy DOP853, relative tolerance 1e-10; checked against closed forms in the test suite",
+        ),
+    ]
+    for r in results:
+        v = r.vehicle
+        for parameter in v.parameters:
+            items.append(Assumption(f"{v.id}: {parameter.name}", parameter.text, parameter.source))
+    if policy is not None:
+        items.append(Assumption("Policy table", policy.table.title, policy.table.source))
+        items.append(Assumption("Policy interpolation", "see rule", policy.table.interpolation))
+    return tuple(items)
+
+
+def summary_sentence(assessment: SiteAssessment, system: Literal["si", "us"]) -> str:
+    """The one sentence a reader needs first."""
+    g = assessment.governing
+    site = assessment.site
+    lane = show(site.available_length, "length", system)
+    if assessment.verdict == "meets":
+        return (
+            f"All design vehicles reach merge speed within the {lane} provided; {g.vehicle.id} governs, "
+            f"needing {show(g.required_length, 'length', system)}."
+        )
+    if g.verdict == "cannot-reach":
+        return (
+            f"{g.vehicle.id} never reaches its merge speed of {show(g.merge_speed, 'speed', system)}: its crawl speed is "
+            f"{show(g.crawl_speed, 'speed', system)}, and it leaves the {lane} lane at "
+            f"{show(g.speed_at_taper_start, 'speed', system)}, {show(g.speed_differential_at_lane_end, 'speed', system)} "
+            f"below the stream."
+        )
+    return (
+        f"The lane is {show(g.deficit, 'length', system)} short for {g.vehicle.id}: it needs "
+        f"{show(g.required_length, 'length', system)} against {lane} provided, and leaves the lane at "
+        f"{show(g.speed_at_taper_start, 'speed', system)}."
+    )

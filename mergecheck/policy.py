@@ -1,0 +1,277 @@
+"""Policy minimum acceleration lengths, as data an agency can supply.
+
+A policy table (YAML; the bundled one is ``mergecheck/data/policy-aashto-2011-us.yaml``)
+gives minimum acceleration lengths by highway design speed (rows) and ramp
+controlling-curve design speed (columns, with a "stop" column), the merge
+speed Va and initial speed Va' each assumes, and grade factors (ratio of the
+length on grade to the length on the level) in blocks by grade range.
+
+Interpolation rule (stated in every report): bilinear in highway design speed
+and ramp controlling speed between the four surrounding cells; the "stop"
+column is interpolated in highway design speed only; no extrapolation beyond
+the table, and no value where any of the cells used is blank. Grade factors
+are interpolated the same way. A grade between the flat-grade limit and the
+lowest block, or beyond the blocks given, has no factor and no policy value
+is given for it.
+"""
+
+from __future__ import annotations
+
+import importlib.resources
+from dataclasses import dataclass
+from pathlib import Path
+
+import numpy as np
+import yaml
+from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_validator
+
+from .errors import InputError
+from .units import parse_quantity
+from .vehicles import pydantic_error
+
+BUNDLED_POLICY = "policy-aashto-2011-us.yaml"
+FLAT_GRADE_LIMIT = 0.03
+"""Tables apply to grades below this without adjustment ("flat grades of less than 3 percent"). [fraction]"""
+
+
+class _Units(BaseModel):
+    model_config = ConfigDict(extra="forbid", frozen=True)
+    speed: str
+    length: str
+
+
+class _GradeBlock(BaseModel):
+    model_config = ConfigDict(extra="forbid", frozen=True)
+    min_grade: float = Field(ge=-0.1, le=0.1)
+    max_grade: float = Field(ge=-0.1, le=0.1)
+    highway_speeds: list[float] = Field(min_length=1)
+    ramp_speeds: list[float] = Field(min_length=1)
+    factors: list[list[float | None]]
+
+    @model_validator(mode="after")
+    def _shape(self) -> _GradeBlock:
+        if self.max_grade <= self.min_grade:
+            raise ValueError("max_grade must exceed min_grade")
+        if len(self.factors) != len(self.highway_speeds) or any(len(r) != len(self.ramp_speeds) for r in self.factors):
+            raise ValueError("factors must have one row per highway speed and one column per ramp speed")
+        return self
+
+
+class _PolicyFile(BaseModel):
+    model_config = ConfigDict(extra="forbid", frozen=True)
+    title: str
+    source: str
+    caution: str = ""
+    length_definition: str
+    units: _Units
+    highway_speeds: list[float] = Field(min_length=2)
+    merge_speeds: list[float] = Field(min_length=2)
+    ramp_speeds: list[float | str] = Field(min_length=1)
+    ramp_initial_speeds: list[float]
+    lengths: list[list[float | None]]
+    grade_factors: list[_GradeBlock] = Field(default_factory=list)
+    interpolation: str
+
+    @model_validator(mode="after")
+    def _shape(self) -> _PolicyFile:
+        if len(self.merge_speeds) != len(self.highway_speeds):
+            raise ValueError("merge_speeds needs one value per highway speed")
+        if len(self.ramp_initial_speeds) != len(self.ramp_speeds):
+            raise ValueError("ramp_initial_speeds needs one value per ramp speed")
+        if len(self.lengths) != len(self.highway_speeds) or any(len(r) != len(self.ramp_speeds) for r in self.lengths):
+            raise ValueError("lengths must have one row per highway speed and one column per ramp speed")
+        if any(b <= a for a, b in zip(self.highway_speeds, self.highway_speeds[1:], strict=False)):
+            raise ValueError("highway_speeds must increase")
+        numeric = [s for s in self.ramp_speeds if s != "stop"]
+        if any(isinstance(s, str) for s in numeric):
+            raise ValueError("ramp speeds are numbers or 'stop'")
+        if any(b <= a for a, b in zip(numeric, numeric[1:], strict=False)):  # type: ignore[operator]
+            raise ValueError("ramp_speeds must increase")
+        return self
+
+
+@dataclass(frozen=True, slots=True)
+class GradeFactors:
+    """One block of grade factors in SI: applies for min_grade <= G <= max_grade."""
+
+    min_grade: float
+    max_grade: float
+    highway_speeds: tuple[float, ...]
+    ramp_speeds: tuple[float, ...]
+    factors: tuple[tuple[float | None, ...], ...]
+
+
+@dataclass(frozen=True, slots=True)
+class PolicyTable:
+    """A policy acceleration-length table in SI units (speeds m/s, lengths m)."""
+
+    title: str
+    source: str
+    caution: str
+    length_definition: str
+    interpolation: str
+    origin: str
+    highway_speeds: tuple[float, ...]
+    merge_speeds: tuple[float, ...]
+    ramp_speeds: tuple[float, ...]
+    """Numeric ramp controlling speeds (the stop column is kept apart). [m/s]"""
+    ramp_initial_speeds: tuple[float, ...]
+    lengths: tuple[tuple[float | None, ...], ...]
+    """Rows by highway speed, columns by numeric ramp speed. [m]"""
+    stop_lengths: tuple[float | None, ...] | None
+    """The stop column, by highway speed, if the table has one. [m]"""
+    grade_factors: tuple[GradeFactors, ...]
+
+
+@dataclass(frozen=True, slots=True)
+class PolicyValue:
+    """The policy minimum for one site, or why there is none."""
+
+    table: PolicyTable
+    minimum_length: float | None
+    """Level length times grade factor; None when the table gives no value. [m]"""
+    level_length: float | None
+    """[m]"""
+    grade_factor: float | None
+    grade: float
+    """Average grade over the acceleration length used for the factor. [fraction]"""
+    merge_speed: float | None
+    """Merge speed Va the table assumes for this highway speed. [m/s]"""
+    note: str
+
+
+def load_policy(path: str | None) -> PolicyTable:
+    """Load a policy table by path, or the bundled one when path is None."""
+    if path is None:
+        text = (importlib.resources.files("mergecheck.data") / BUNDLED_POLICY).read_text(encoding="utf-8")
+        origin = f"bundled: {BUNDLED_POLICY}"
+    else:
+        try:
+            text = Path(path).read_text(encoding="utf-8")
+        except OSError as error:
+            raise InputError(path, "", f"cannot read the policy table: {error.strerror}") from None
+        origin = path
+    source = path or BUNDLED_POLICY
+    try:
+        raw = yaml.safe_load(text)
+    except yaml.YAMLError as error:
+        raise InputError(source, "", f"not valid YAML: {error}") from None
+    try:
+        data = _PolicyFile.model_validate(raw)
+    except ValidationError as error:
+        raise pydantic_error(error, source) from None
+    speed = parse_quantity(f"1 {data.units.speed}", "speed", source=source, field="units.speed")
+    length = parse_quantity(f"1 {data.units.length}", "length", source=source, field="units.length")
+    numeric = [i for i, s in enumerate(data.ramp_speeds) if s != "stop"]
+    stop = [i for i, s in enumerate(data.ramp_speeds) if s == "stop"]
+
+    def scaled(value: float | None, factor: float) -> float | None:
+        return None if value is None else value * factor
+
+    return PolicyTable(
+        title=data.title,
+        source=data.source,
+        caution=data.caution,
+        length_definition=data.length_definition,
+        interpolation=data.interpolation,
+        origin=origin,
+        highway_speeds=tuple(v * speed for v in data.highway_speeds),
+        merge_speeds=tuple(v * speed for v in data.merge_speeds),
+        ramp_speeds=tuple(float(data.ramp_speeds[i]) * speed for i in numeric),
+        ramp_initial_speeds=tuple(data.ramp_initial_speeds[i] * speed for i in numeric),
+        lengths=tuple(tuple(scaled(row[i], length) for i in numeric) for row in data.lengths),
+        stop_lengths=tuple(scaled(row[stop[0]], length) for row in data.lengths) if stop else None,
+        grade_factors=tuple(
+            GradeFactors(
+                b.min_grade,
+                b.max_grade,
+                tuple(v * speed for v in b.highway_speeds),
+                tuple(v * speed for v in b.ramp_speeds),
+                tuple(tuple(row) for row in b.factors),
+            )
+            for b in data.grade_factors
+        ),
+    )
+
+
+def _bracket(values: tuple[float, ...], x: float) -> tuple[int, int, float] | None:
+    """Indices and weight of the cells around x; None outside the range."""
+    tol = 1e-9
+    if not values or x < values[0] - tol or x > values[-1] + tol:
+        return None
+    if len(values) == 1:
+        return (0, 0, 0.0)
+    j = int(np.clip(np.searchsorted(values, x, side="right") - 1, 0, len(values) - 2))
+    w = (x - values[j]) / (values[j + 1] - values[j])
+    return (j, j + 1, float(np.clip(w, 0.0, 1.0)))
+
+
+def _bilinear(
+    rows: tuple[float, ...], cols: tuple[float, ...], cells: tuple[tuple[float | None, ...], ...], x: float, y: float
+) -> float | None:
+    r = _bracket(rows, x)
+    c = _bracket(cols, y)
+    if r is None or c is None:
+        return None
+    (r0, r1, wr), (c0, c1, wc) = r, c
+    corners = [(r0, c0, (1 - wr) * (1 - wc)), (r0, c1, (1 - wr) * wc), (r1, c0, wr * (1 - wc)), (r1, c1, wr * wc)]
+    total = 0.0
+    for i, j, weight in corners:
+        value = cells[i][j]
+        if weight > 0 or (i, j) == (r0, c0):
+            if value is None:
+                return None
+            total += weight * value
+    return total
+
+
+def _linear(xs: tuple[float, ...], ys: tuple[float | None, ...], x: float) -> float | None:
+    b = _bracket(xs, x)
+    if b is None:
+        return None
+    i, j, w = b
+    if ys[i] is None or (w > 0 and ys[j] is None):
+        return None
+    return (1 - w) * ys[i] + (w * ys[j] if w > 0 else 0.0)  # type: ignore[operator]
+
+
+def initial_speed_for(table: PolicyTable, controlling_speed: float | None) -> float | None:
+    """The table's initial speed Va' for a controlling speed (0 for a stop), interpolated. [m/s]"""
+    if controlling_speed is None:
+        return 0.0
+    return _linear(table.ramp_speeds, table.ramp_initial_speeds, controlling_speed)
+
+
+def policy_minimum(table: PolicyTable, design_speed: float, controlling_speed: float | None, grade: float) -> PolicyValue:
+    """Policy minimum acceleration length for a site.
+
+    Parameters
+    ----------
+    design_speed
+        Highway design speed. [m/s]
+    controlling_speed
+        Ramp controlling-curve design speed; None for a stop. [m/s]
+    grade
+        Average grade over the acceleration length. [fraction]
+    """
+    merge = _linear(table.highway_speeds, table.merge_speeds, design_speed)
+    if controlling_speed is None:
+        if table.stop_lengths is None:
+            return PolicyValue(table, None, None, None, grade, merge, "the table has no column for a ramp that starts from a stop")
+        level = _linear(table.highway_speeds, table.stop_lengths, design_speed)
+    else:
+        level = _bilinear(table.highway_speeds, table.ramp_speeds, table.lengths, design_speed, controlling_speed)
+    if level is None:
+        return PolicyValue(table, None, None, None, grade, merge, "the combination of highway and ramp speeds is outside the table")
+    if grade < FLAT_GRADE_LIMIT:
+        note = "flat-grade value (grade below 3 %)" if grade > -FLAT_GRADE_LIMIT else "flat-grade value; the table's downgrade factors (below 1) were not applied"
+        return PolicyValue(table, level, level, 1.0, grade, merge, note)
+    for block in table.grade_factors:
+        if block.min_grade - 1e-9 <= grade <= block.max_grade + 1e-9:
+            if controlling_speed is None:
+                return PolicyValue(table, None, level, None, grade, merge, "the grade factors have no column for a stop")
+            factor = _bilinear(block.highway_speeds, block.ramp_speeds, block.factors, design_speed, controlling_speed)
+            if factor is None:
+                return PolicyValue(table, None, level, None, grade, merge, "no grade factor for this combination of speeds")
+            return PolicyValue(table, level * factor, level, factor, grade, merge, f"level value times grade factor {factor:.2f}")
+    return PolicyValue(table, None, level, None, grade, merge, f"no grade factors for a {grade:.1%} upgrade in this table")

@@ -1,0 +1,102 @@
+"""Markdown renderer: the check as a document a reviewer can read. Reads results only."""
+
+from __future__ import annotations
+
+from ..assessment import SiteAssessment, summary_sentence
+from ..units import UnitSystem, convert, show, unit_symbol
+
+
+def _cell(text: object) -> str:
+    """Text safe inside a Markdown table cell."""
+    return str(text).replace("\\", "\\\\").replace("|", "\\|").replace("\n", " ")
+
+
+def _num(value: float | None, kind: str, system: UnitSystem) -> str:
+    return "–" if value is None else f"{convert(value, kind, system):.{0 if kind == 'length' else 1}f}"
+
+
+def site_markdown(assessment: SiteAssessment, system: UnitSystem) -> str:
+    site = assessment.site
+    v_unit, l_unit = unit_symbol("speed", system), unit_symbol("length", system)
+    lines = [
+        f"# Acceleration-lane check: {_cell(site.name)}",
+        "",
+        f"**Verdict: {assessment.verdict.upper()}** — governing vehicle: `{assessment.governing.vehicle.id}`",
+        "",
+        summary_sentence(assessment, system),
+        "",
+    ]
+    if site.notes:
+        lines += [f"> {_cell(site.notes)}", ""]
+    ramp_start = "stop (stop line or ramp meter)" if site.controlling_speed is None else show(site.controlling_speed, "speed", system)
+    lines += [
+        "## Layout",
+        "",
+        "| Item | Value |",
+        "|---|---|",
+        f"| Site file | `{_cell(site.source)}` |",
+        f"| Mainline design speed / operating speed | {show(site.design_speed, 'speed', system)} / {show(site.operating_speed, 'speed', system)} |",
+        f"| Through lanes per direction | {site.lanes} |",
+        f"| Adjacent-lane flow | {site.adjacent_lane_flow * 3600:.0f} veh/h |",
+        f"| Ramp controlling speed | {ramp_start} |",
+        f"| Speed leaving the controlling curve | {show(assessment.initial_speed, 'speed', system)} |",
+        f"| Ramp flow | {site.ramp_flow * 3600:.0f} veh/h |",
+        f"| Entrance type | {site.entrance} |",
+        f"| Convergence point (from the end of the controlling curve) | {show(site.convergence, 'length', system)} |",
+        f"| Acceleration lane (convergence point to start of taper) | {show(site.lane_length, 'length', system)} |",
+        f"| Taper | {show(site.taper_length, 'length', system)} |",
+        f"| Average grade over the lane | {assessment.average_grade:+.2%} |",
+        f"| Elevation at station 0 | {show(site.elevation, 'length', system)} |",
+        "",
+        "## Speeds along the ramp",
+        "",
+        f"| Vehicle | Merge speed ({v_unit}) | At convergence point | At end of lane | At end of taper | Differential at end of lane | Crawl speed |",
+        "|---|--:|--:|--:|--:|--:|--:|",
+    ]
+    for v in assessment.vehicles:
+        flag = " ⚑ large" if v.large_differential else ""
+        lines.append(
+            f"| `{v.vehicle.id}` | {_num(v.merge_speed, 'speed', system)} | {_num(v.speed_at_convergence, 'speed', system)} | "
+            f"{_num(v.speed_at_taper_start, 'speed', system)} | {_num(v.speed_at_taper_end, 'speed', system)} | "
+            f"{_num(v.speed_differential_at_lane_end, 'speed', system)}{flag} | {_num(v.crawl_speed, 'speed', system)} |"
+        )
+    lines += [
+        "",
+        f"Speeds in {v_unit}. The differential is the mainline operating speed minus the vehicle's speed where the "
+        f"full-width lane ends; values above {show(site.flag_speed_differential, 'speed', system)} are flagged.",
+        "",
+        "## Acceleration length",
+        "",
+        "Required length is measured as the policy tables measure it: from the convergence point to where the vehicle "
+        "reaches its merge speed.",
+        "",
+        f"| Vehicle | Share of ramp flow | Required ({l_unit}) | Available ({l_unit}) | Deficit ({l_unit}) | Verdict |",
+        "|---|--:|--:|--:|--:|---|",
+    ]
+    for v in assessment.vehicles:
+        required = "never reached" if v.required_length is None else _num(v.required_length, "length", system)
+        lines.append(
+            f"| `{v.vehicle.id}` | {v.share:.0%} | {required} | {_num(v.available_length, 'length', system)} | "
+            f"{_num(v.deficit, 'length', system)} | **{v.verdict}** |"
+        )
+    policy = assessment.policy
+    lines += ["", "## Policy minimum", ""]
+    if policy is None:
+        lines.append("No policy table was applied (the site file says `policy: none`).")
+    else:
+        value = "none" if policy.minimum_length is None else show(policy.minimum_length, "length", system)
+        lines += [
+            f"- Policy minimum acceleration length: **{value}** ({_cell(policy.note)})",
+            f"- Merge speed the table assumes for this highway: {show(policy.merge_speed, 'speed', system)}"
+            " (the computed requirement uses the site's merge speeds above)",
+            f"- Table: {_cell(policy.table.title)} — {_cell(policy.table.source)}",
+            f"- Length measured: {_cell(policy.table.length_definition)}",
+            f"- Interpolation: {_cell(policy.table.interpolation)}",
+        ]
+        if policy.table.caution:
+            lines.append(f"- **Caution:** {_cell(policy.table.caution)}")
+    lines += ["", "## Assumptions", "", "| Item | Value | Source |", "|---|---|---|"]
+    lines += [f"| {_cell(a.name)} | {_cell(a.value)} | {_cell(a.source)} |" for a in assessment.assumptions]
+    lines += ["", "## Cautions", ""]
+    lines += [f"- {c}" for c in assessment.cautions]
+    return "\n".join(lines) + "\n"

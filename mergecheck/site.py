@@ -1,0 +1,334 @@
+"""The site file: one entrance terminal, validated into SI values.
+
+YAML, read with a safe loader, validated with pydantic into the models below
+(whose JSON Schema ``mergecheck schema`` prints), then converted to the frozen
+:class:`Site` in SI units. Every error names the file, the field path and the
+rule.
+
+Stations along the path are measured from the end of the ramp's controlling
+curve (station 0), or from the stop line when the ramp starts from a stop:
+
+    0 ── ramp ── convergence point ── acceleration lane ── taper start ── taper ── taper end
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Literal
+
+from pydantic import BaseModel, ConfigDict, Field, ValidationError
+
+from .errors import InputError
+from .inputs import GradePoint, build_profile, read_yaml
+from .profile import VerticalProfile
+from .units import parse_quantity
+from .vehicles import DesignVehicle, bundled_ids, load_vehicle, pydantic_error
+
+SHARE_TOLERANCE = 1e-3
+
+
+class _Strict(BaseModel):
+    model_config = ConfigDict(extra="forbid", frozen=True, populate_by_name=True)
+
+
+class MainlineInput(_Strict):
+    """The freeway or expressway the ramp joins."""
+
+    design_speed: str = Field(description="Highway design speed, e.g. '110 km/h' or '65 mph'.")
+    operating_speed: str | None = Field(
+        default=None,
+        description="Speed of the through stream at the merge. Default: the design speed (the conservative case).",
+    )
+    lanes: int = Field(ge=1, le=8, description="Through lanes per direction upstream of the merge.")
+    lanes_downstream: int | None = Field(
+        default=None, ge=1, le=9, description="Through lanes per direction downstream, if the count changes (e.g. a lane added)."
+    )
+    adjacent_lane_flow: str = Field(description="Design-hour flow in the lane ramp traffic merges into, e.g. '1400 veh/h'.")
+
+
+class RampInput(_Strict):
+    """The entrance ramp."""
+
+    controlling_speed: str = Field(
+        description="Design speed of the ramp's controlling curve, e.g. '50 km/h', or 'stop' for a stop or ramp meter."
+    )
+    initial_speed: str | None = Field(
+        default=None,
+        description=(
+            "Speed of vehicles leaving the controlling curve. Default: the policy table's initial speed for the"
+            " controlling speed (average running speed on the curve), or the controlling speed itself."
+        ),
+    )
+    flow: str = Field(description="Design-hour ramp flow, e.g. '600 veh/h'.")
+    vehicles: dict[str, float] = Field(
+        min_length=1,
+        description="Design vehicles (bundled id or profile file path) and their share of the ramp flow; shares sum to 1.",
+    )
+
+
+class GeometryInput(_Strict):
+    """Lengths along the vehicle path and the vertical profile."""
+
+    entrance: Literal["parallel", "taper"] = Field(description="Parallel-type or taper-type entrance.")
+    curve_end_to_convergence: str = Field(
+        description="Ramp length from the end of the controlling curve (or the stop line) to the convergence point."
+    )
+    lane_length: str = Field(
+        description=(
+            "Acceleration length provided, from the convergence point to the start of the taper (parallel type), or"
+            " to the point of a taper-type entrance where the taper has narrowed to one lane width."
+        )
+    )
+    taper_length: str = Field(description="Length of the taper beyond the lane.")
+    elevation: str | None = Field(default=None, description="Elevation above sea level at station 0, e.g. '450 m'.")
+    profile: list[GradePoint] = Field(
+        min_length=1, description="Grades by station from the end of the controlling curve (first entry at 0)."
+    )
+
+
+class VehicleCriteriaInput(_Strict):
+    """Criteria that differ for one design vehicle."""
+
+    merge_speed_differential: str | None = Field(
+        default=None, description="Merge speed = operating speed minus this, for this vehicle."
+    )
+
+
+class CriteriaInput(_Strict):
+    """What counts as meeting the check."""
+
+    merge_speed_differential: str = Field(
+        default="8 km/h",
+        description="Merge speed = operating speed minus this (default 8 km/h, about the 5 mph of the policy tables).",
+    )
+    flag_speed_differential: str = Field(
+        default="16 km/h",
+        description="Speed differential to the stream at the end of the lane that is flagged as large (default 16 km/h).",
+    )
+    taper_credit: float = Field(
+        default=0.0,
+        ge=0.0,
+        le=1.0,
+        description="Share of the taper counted as acceleration length (0: the policy-table definition).",
+    )
+    vehicles: dict[str, VehicleCriteriaInput] = Field(default_factory=dict, description="Per-vehicle criteria.")
+
+
+class SiteInput(_Strict):
+    """An entrance terminal to check (the site file)."""
+
+    name: str = Field(min_length=1, description="Name of the site, as it should appear on the report.")
+    notes: str | None = Field(default=None, description="Free text carried to the report.")
+    mainline: MainlineInput
+    ramp: RampInput
+    geometry: GeometryInput
+    criteria: CriteriaInput = Field(default_factory=CriteriaInput)
+    policy: str | None = Field(
+        default=None,
+        description="Policy table file (path relative to this file), 'none', or omitted for the bundled table.",
+    )
+
+
+@dataclass(frozen=True, slots=True)
+class SiteVehicle:
+    """A design vehicle at the site, with its share of the ramp flow and merge speed."""
+
+    vehicle: DesignVehicle
+    share: float
+    merge_speed: float
+    """[m/s]"""
+    merge_speed_differential: float
+    """[m/s]"""
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class Site:
+    """A validated entrance terminal in SI units."""
+
+    name: str
+    notes: str | None
+    source: str
+    design_speed: float
+    """[m/s]"""
+    operating_speed: float
+    """[m/s]"""
+    operating_speed_given: bool
+    lanes: int
+    lanes_downstream: int | None
+    adjacent_lane_flow: float
+    """[veh/s]"""
+    controlling_speed: float | None
+    """Design speed of the controlling curve; None for a stop. [m/s]"""
+    initial_speed: float | None
+    """Speed leaving the controlling curve if given; None to take the default. [m/s]"""
+    ramp_flow: float
+    """[veh/s]"""
+    vehicles: tuple[SiteVehicle, ...]
+    entrance: Literal["parallel", "taper"]
+    convergence: float
+    """Station of the convergence point. [m]"""
+    lane_length: float
+    """[m]"""
+    taper_length: float
+    """[m]"""
+    elevation: float
+    """[m]"""
+    profile: VerticalProfile
+    flag_speed_differential: float
+    """[m/s]"""
+    taper_credit: float
+    policy_file: str | None
+    """Path of the policy table, 'none', or None for the bundled one."""
+
+    @property
+    def taper_start(self) -> float:
+        """Station of the start of the taper (end of the full-width lane). [m]"""
+        return self.convergence + self.lane_length
+
+    @property
+    def taper_end(self) -> float:
+        """[m]"""
+        return self.taper_start + self.taper_length
+
+    @property
+    def available_length(self) -> float:
+        """Acceleration length available, measured as the policy tables measure it (plus any taper credit). [m]"""
+        return self.lane_length + self.taper_credit * self.taper_length
+
+
+def load_site(path: str) -> Site:
+    """Read, validate and convert a site file."""
+    raw = read_yaml(path)
+    if not isinstance(raw, dict):
+        raise InputError(path, "", "a site file must be a mapping of fields (name, mainline, ramp, geometry, ...)")
+    try:
+        data = SiteInput.model_validate(raw)
+    except ValidationError as error:
+        raise pydantic_error(error, path) from None
+    return site_from_input(data, path)
+
+
+def site_from_input(data: SiteInput, source: str) -> Site:
+    """Convert validated input to SI and check the rules no schema can express."""
+
+    def q(text: str, kind: str, field: str) -> float:
+        return parse_quantity(text, kind, source=source, field=field)
+
+    design = q(data.mainline.design_speed, "speed", "mainline.design_speed")
+    operating = design if data.mainline.operating_speed is None else q(data.mainline.operating_speed, "speed", "mainline.operating_speed")
+    for field, value in (("mainline.design_speed", design), ("mainline.operating_speed", operating)):
+        if not 40 / 3.6 <= value <= 160 / 3.6:
+            raise InputError(source, field, "must lie between 40 and 160 km/h for a freeway or expressway merge")
+    adjacent = q(data.mainline.adjacent_lane_flow, "flow", "mainline.adjacent_lane_flow")
+    if not 0 <= adjacent <= 3000 / 3600:
+        raise InputError(source, "mainline.adjacent_lane_flow", "must lie between 0 and 3000 veh/h")
+
+    controlling: float | None = None
+    if data.ramp.controlling_speed.strip().lower() != "stop":
+        controlling = q(data.ramp.controlling_speed, "speed", "ramp.controlling_speed")
+        if controlling <= 0:
+            raise InputError(source, "ramp.controlling_speed", "must be positive (or 'stop')")
+        if controlling >= operating:
+            raise InputError(source, "ramp.controlling_speed", "must be below the mainline operating speed: no acceleration lane is needed otherwise")
+    initial: float | None = None
+    if data.ramp.initial_speed is not None:
+        initial = q(data.ramp.initial_speed, "speed", "ramp.initial_speed")
+        if initial < 0 or initial >= operating:
+            raise InputError(source, "ramp.initial_speed", "must be at least 0 and below the mainline operating speed")
+        if controlling is None and initial != 0:
+            raise InputError(source, "ramp.initial_speed", "a ramp that starts from a stop has an initial speed of 0")
+    ramp_flow = q(data.ramp.flow, "flow", "ramp.flow")
+    if not 0 <= ramp_flow <= 3000 / 3600:
+        raise InputError(source, "ramp.flow", "must lie between 0 and 3000 veh/h")
+
+    base_differential = q(data.criteria.merge_speed_differential, "speed", "criteria.merge_speed_differential")
+    flag = q(data.criteria.flag_speed_differential, "speed", "criteria.flag_speed_differential")
+    if flag <= 0:
+        raise InputError(source, "criteria.flag_speed_differential", "must be positive")
+    unknown = sorted(set(data.criteria.vehicles) - set(data.ramp.vehicles))
+    if unknown:
+        raise InputError(source, f"criteria.vehicles.{unknown[0]}", "criteria given for a vehicle not listed under ramp.vehicles")
+    shares = data.ramp.vehicles
+    total = sum(shares.values())
+    if abs(total - 1.0) > SHARE_TOLERANCE:
+        raise InputError(source, "ramp.vehicles", f"shares must sum to 1, they sum to {total:g}")
+    base_dir = Path(source).parent
+    vehicles = []
+    for ref, share in shares.items():
+        field = f"ramp.vehicles.{ref}"
+        if not 0 < share <= 1:
+            raise InputError(source, field, "a share must be greater than 0 and at most 1")
+        vehicle = _site_vehicle(ref, base_dir, source, field)
+        differential = base_differential
+        override = data.criteria.vehicles.get(ref)
+        if override is not None and override.merge_speed_differential is not None:
+            differential = q(override.merge_speed_differential, "speed", f"criteria.vehicles.{ref}.merge_speed_differential")
+        where = f"criteria.vehicles.{ref}.merge_speed_differential" if override else "criteria.merge_speed_differential"
+        if not 0 <= differential < operating:
+            raise InputError(source, where, "must be at least 0 and below the operating speed")
+        merge = operating - differential
+        start = initial if initial is not None else (controlling or 0.0)
+        if merge <= start:
+            raise InputError(source, where, "gives a merge speed at or below the speed leaving the controlling curve")
+        vehicles.append(SiteVehicle(vehicle, share, merge, differential))
+
+    g = data.geometry
+    lengths = {}
+    for name in ("curve_end_to_convergence", "lane_length", "taper_length"):
+        value = q(getattr(g, name), "length", f"geometry.{name}")
+        minimum = 0.0 if name == "curve_end_to_convergence" else 1.0
+        if value < minimum or value > 5000:
+            rule = "must not be negative" if name == "curve_end_to_convergence" else "must be a positive length"
+            raise InputError(source, f"geometry.{name}", f"{rule} of at most 5000 m")
+        lengths[name] = value
+    elevation = 0.0 if g.elevation is None else q(g.elevation, "length", "geometry.elevation")
+    if not -500 <= elevation <= 5000:
+        raise InputError(source, "geometry.elevation", "must lie between -500 m and 5000 m")
+    profile = build_profile(g.profile, source, "geometry.profile")
+    path_end = lengths["curve_end_to_convergence"] + lengths["lane_length"] + lengths["taper_length"]
+    for i, change in enumerate(profile.changes, start=1):
+        if change.station > path_end:
+            raise InputError(source, f"geometry.profile.{i}.from", "station lies beyond the end of the taper")
+
+    return Site(
+        name=data.name,
+        notes=data.notes,
+        source=source,
+        design_speed=design,
+        operating_speed=operating,
+        operating_speed_given=data.mainline.operating_speed is not None,
+        lanes=data.mainline.lanes,
+        lanes_downstream=data.mainline.lanes_downstream,
+        adjacent_lane_flow=adjacent,
+        controlling_speed=controlling,
+        initial_speed=initial if controlling is not None else 0.0,
+        ramp_flow=ramp_flow,
+        vehicles=tuple(vehicles),
+        entrance=g.entrance,
+        convergence=lengths["curve_end_to_convergence"],
+        lane_length=lengths["lane_length"],
+        taper_length=lengths["taper_length"],
+        elevation=elevation,
+        profile=profile,
+        flag_speed_differential=flag,
+        taper_credit=data.criteria.taper_credit,
+        policy_file=_policy_path(data.policy, base_dir),
+    )
+
+
+def _site_vehicle(ref: str, base_dir: Path, source: str, field: str) -> DesignVehicle:
+    looks_like_path = ref.endswith((".yaml", ".yml")) or "/" in ref
+    if looks_like_path:
+        path = Path(ref) if Path(ref).is_absolute() else base_dir / ref
+        return load_vehicle(str(path))
+    if ref not in bundled_ids():
+        raise InputError(source, field, f"unknown vehicle id; known ids: {', '.join(bundled_ids())}, or a profile file path")
+    return load_vehicle(ref)
+
+
+def _policy_path(policy: str | None, base_dir: Path) -> str | None:
+    if policy is None or policy.strip().lower() == "none":
+        return policy
+    path = Path(policy)
+    return str(path if path.is_absolute() else base_dir / path)
