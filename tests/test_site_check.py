@@ -1,0 +1,147 @@
+"""The site check end to end through the real command line, and the policy lookup."""
+
+from __future__ import annotations
+
+import json
+from pathlib import Path
+from typing import Any
+
+import pytest
+
+from mergecheck.assessment import assess
+from mergecheck.policy import load_policy, policy_minimum
+from mergecheck.site import load_site
+from mergecheck.trajectory import accelerate
+
+MPH, FT = 0.44704, 0.3048
+
+
+def test_example_level_site_meets(cli: Any, repo: Path) -> None:
+    run = cli("check", repo / "examples" / "willowmere-level.yaml", "--json")
+    assert run.code == 0, run.stderr
+    doc = run.json()
+    assert doc["verdict"] == "meets" and doc["governing_vehicle"] == "passenger-car"
+    car = next(v for v in doc["vehicles"] if v["id"] == "passenger-car")
+    assert car["required_length_m"] < car["available_length_m"] == 260.0
+    assert doc["policy"]["minimum_length_m"] > 0 and "from memory" in doc["policy"]["caution"]
+    assert len(doc["cautions"]) >= 3 and all(a["source"] for a in doc["assumptions"])
+
+
+def test_example_truck_upgrade_cannot_reach(cli: Any, repo: Path) -> None:
+    """Loaded trucks on a sustained 4-5 % upgrade: crawl speed below merge speed (physically: see test_design_vehicles)."""
+    run = cli("check", repo / "examples" / "quarry-hill-upgrade.yaml", "--json")
+    assert run.code == 1
+    doc = run.json()
+    assert doc["verdict"] == "short" and doc["governing_vehicle"] == "semitrailer-design"
+    trucks = {v["id"]: v for v in doc["vehicles"]}
+    for truck in ("semitrailer-design", "semitrailer-fleet", "single-unit-truck"):
+        assert trucks[truck]["verdict"] == "cannot-reach"
+        assert trucks[truck]["required_length_m"] is None
+        assert trucks[truck]["crawl_speed_m_s"] < trucks[truck]["merge_speed_m_s"]
+    assert trucks["semitrailer-design"]["crawl_speed_m_s"] < trucks["semitrailer-fleet"]["crawl_speed_m_s"]
+
+
+def test_example_constrained_site_is_short_with_agency_table(cli: Any, repo: Path) -> None:
+    run = cli("check", repo / "examples" / "harbour-street-constrained.yaml", "--json")
+    assert run.code == 1
+    doc = run.json()
+    assert doc["verdict"] == "short"
+    assert "invented" in doc["policy"]["title"]
+    # 100 km/h highway, 40 km/h ramp: the agency table's cell, flat grade (1.5 %)
+    assert doc["policy"]["minimum_length_m"] == pytest.approx(340.0)
+    governing = next(v for v in doc["vehicles"] if v["id"] == doc["governing_vehicle"])
+    assert governing["deficit_m"] == pytest.approx(governing["required_length_m"] - 150.0 - 0.5 * 75.0, abs=1e-3)
+
+
+def test_issue_minimal_form(cli: Any, repo: Path) -> None:
+    run = cli("check", repo / "examples" / "larkspur-road.yaml")
+    assert run.code == 1
+    assert "Verdict: SHORT" in run.stdout and "semitrailer-design" in run.stdout
+    assert "Cautions" in run.stdout and "licensed engineer" in run.stdout
+
+
+@pytest.mark.parametrize("example", ["willowmere-level", "quarry-hill-upgrade", "harbour-street-constrained", "larkspur-road"])
+def test_required_length_is_the_trajectory_distance(repo: Path, example: str) -> None:
+    """Required length = distance at which an independent run of the integrator reaches merge speed, less the ramp."""
+    assessment = assess(load_site(str(repo / "examples" / f"{example}.yaml")))
+    site = assessment.site
+    for result in assessment.vehicles:
+        run = accelerate(result.vehicle.model, site.profile, assessment.initial_speed, result.merge_speed, elevation=site.elevation)
+        if run.distance is None:
+            assert result.required_length is None and result.verdict == "cannot-reach"
+        else:
+            assert result.required_length == pytest.approx(max(0.0, run.distance - site.convergence), rel=1e-9, abs=1e-9)
+
+
+def test_units_of_display_do_not_change_results(cli: Any, repo: Path, tmp_path: Path) -> None:
+    si = cli("check", repo / "examples" / "larkspur-road.yaml", "--units", "si", "--json").json()
+    us = cli("check", repo / "examples" / "larkspur-road.yaml", "--units", "us", "--json").json()
+    assert si == us
+    text = cli("check", repo / "examples" / "larkspur-road.yaml", "--units", "us").stdout
+    assert "mph" in text and "(ft)" in text
+
+
+def test_markdown_and_json_files(cli: Any, repo: Path, tmp_path: Path) -> None:
+    md, js = tmp_path / "report.md", tmp_path / "report.json"
+    run = cli("check", repo / "examples" / "harbour-street-constrained.yaml", "--markdown", md, "--json", js)
+    assert run.code == 1
+    text = md.read_text()
+    for heading in ("# Acceleration-lane check", "## Acceleration length", "## Policy minimum", "## Assumptions", "## Cautions"):
+        assert heading in text
+    assert json.loads(js.read_text())["verdict"] == "short"
+
+
+def test_output_into_missing_folder_writes_nothing(cli: Any, repo: Path, tmp_path: Path) -> None:
+    md = tmp_path / "report.md"
+    run = cli("check", repo / "examples" / "willowmere-level.yaml", "--markdown", md, "--json", tmp_path / "no" / "r.json")
+    assert run.code == 2 and "does not exist" in run.stderr
+    assert not md.exists()
+
+
+def test_schema_command_and_published_copy(cli: Any, repo: Path) -> None:
+    run = cli("schema")
+    assert run.code == 0
+    schema = run.json()
+    assert set(schema["required"]) >= {"name", "mainline", "ramp", "geometry"}
+    assert "from" in json.dumps(schema)  # the YAML key of a profile point, not the Python name
+    assert json.loads((repo / "examples" / "site.schema.json").read_text()) == schema
+
+
+# --- policy lookup --------------------------------------------------------------------------
+
+
+def test_bundled_table_reproduces_every_reference_cell(green_book_lengths: list) -> None:  # type: ignore[type-arg]
+    """The shipped table against the test copy of the Green Book 2011 table (FROM MEMORY): exact at every cell.
+
+    The reference rows are keyed by the table's initial speed Va'; ramp speed V' = stop, 15, 20, ... 50 mph.
+    """
+    table = load_policy(None)
+    ramp_for_initial = {0: None, 14: 15, 18: 20, 22: 25, 26: 30, 30: 35, 36: 40, 40: 45, 44: 50}
+    for cell in green_book_lengths:
+        ramp = ramp_for_initial[round(cell.initial_speed / MPH)]
+        value = policy_minimum(table, cell.highway_speed_mph * MPH, None if ramp is None else ramp * MPH, 0.0)
+        assert value.minimum_length == pytest.approx(cell.length, rel=1e-9)
+        assert value.merge_speed == pytest.approx(cell.merge_speed, rel=1e-9)
+
+
+def test_bilinear_interpolation_by_hand() -> None:
+    """Midway between 60 and 65 mph and between ramp speeds 30 and 35 mph:
+    mean of 910, 800, 1120, 1000 ft = 957.5 ft (interpolation rule in the table file)."""
+    value = policy_minimum(load_policy(None), 62.5 * MPH, 32.5 * MPH, 0.01)
+    assert value.minimum_length == pytest.approx(957.5 * FT, rel=1e-9)
+
+
+def test_stop_column_and_limits() -> None:
+    table = load_policy(None)
+    assert policy_minimum(table, 67.5 * MPH, None, 0.0).minimum_length == pytest.approx(1515 * FT)
+    assert policy_minimum(table, 75 * MPH, 30 * MPH, 0.0).minimum_length is None  # beyond the table: no extrapolation
+    assert policy_minimum(table, 40 * MPH, 40 * MPH, 0.0).minimum_length is None  # blank cell
+
+
+def test_grade_factor_applied_within_block() -> None:
+    """3 to 4 % upgrade, 60 mph highway, 30 mph ramp: 910 ft x 1.5 (Green Book 2011, FROM MEMORY)."""
+    value = policy_minimum(load_policy(None), 60 * MPH, 30 * MPH, 0.035)
+    assert value.grade_factor == pytest.approx(1.5)
+    assert value.minimum_length == pytest.approx(910 * FT * 1.5)
+    steep = policy_minimum(load_policy(None), 60 * MPH, 30 * MPH, 0.055)
+    assert steep.minimum_length is None and "no grade factors" in steep.note

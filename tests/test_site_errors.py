@@ -1,0 +1,92 @@
+"""Every kind of bad site file gives exit code 2 and a message naming the file and the field path."""
+
+from __future__ import annotations
+
+import copy
+from pathlib import Path
+from typing import Any
+
+import pytest
+import yaml
+
+BASE: dict[str, Any] = yaml.safe_load(
+    """
+name: Test site
+mainline: {design_speed: 110 km/h, operating_speed: 100 km/h, lanes: 3, adjacent_lane_flow: 1400 veh/h}
+ramp:
+  controlling_speed: 50 km/h
+  flow: 600 veh/h
+  vehicles: {passenger-car: 0.85, semitrailer-design: 0.15}
+geometry:
+  entrance: parallel
+  curve_end_to_convergence: 80 m
+  lane_length: 300 m
+  taper_length: 90 m
+  profile:
+    - {from: 0 m, grade: 3 %}
+    - {from: 250 m, grade: 1.5 %}
+"""
+)
+
+
+def edited(path: tuple[str | int, ...], value: Any) -> dict[str, Any]:
+    site = copy.deepcopy(BASE)
+    node = site
+    for key in path[:-1]:
+        node = node[key]
+    if value is DELETE:
+        del node[path[-1]]
+    else:
+        node[path[-1]] = value
+    return site
+
+
+DELETE = object()
+
+CASES = [
+    (("geometry", "profile", 1, "from"), "0 m", "geometry.profile.1.from", "increase"),
+    (("geometry", "lane_length"), "-300 m", "geometry.lane_length", "positive"),
+    (("geometry", "lane_length"), "0 m", "geometry.lane_length", "positive"),
+    (("geometry", "taper_length"), "0 ft", "geometry.taper_length", "positive"),
+    (("ramp", "controlling_speed"), "100 km/h", "ramp.controlling_speed", "below the mainline operating speed"),
+    (("ramp", "controlling_speed"), "120 km/h", "ramp.controlling_speed", "below the mainline operating speed"),
+    (("geometry", "profile", 0, "grade"), "11 %", "geometry.profile.0.grade", "steeper"),
+    (("ramp", "vehicles"), {"passenger-car": 0.85, "semitrailer-design": 0.25}, "ramp.vehicles", "sum to 1"),
+    (("ramp", "vehicles"), {"passenger-car": 0.85, "tank": 0.15}, "ramp.vehicles.tank", "known ids: bus"),
+    (("mainline", "design_speed"), "110", "mainline.design_speed", "unit is required"),
+    (("mainline", "design_speed"), "110 m", "mainline.design_speed", "wrong kind"),
+    (("mainline", "adjacent_lane_flow"), "nan veh/h", "mainline.adjacent_lane_flow", "finite"),
+    (("mainline", "lanes"), 0, "mainline.lanes", "greater than or equal to 1"),
+    (("mainline", "design_speed"), DELETE, "mainline.design_speed", "required field is missing"),
+    (("mainline", "speed_limit"), "100 km/h", "mainline.speed_limit", "unknown field"),
+    (("geometry", "entrance"), "loop", "geometry.entrance", "parallel"),
+    (("geometry", "profile", 1, "from"), "900 m", "geometry.profile.1.from", "beyond the end of the taper"),
+    (("criteria",), {"merge_speed_differential": "120 km/h"}, "criteria.merge_speed_differential", "below the operating speed"),
+    (("criteria",), {"vehicles": {"bus": {"merge_speed_differential": "5 km/h"}}}, "criteria.vehicles.bus", "not listed"),
+    (("policy",), "missing-table.yaml", "missing-table.yaml", "cannot read"),
+]
+
+
+@pytest.mark.parametrize(("path", "value", "field", "rule"), CASES, ids=[c[2] + ":" + c[3] for c in CASES])
+def test_bad_site_file(cli: Any, tmp_path: Path, path: tuple[str | int, ...], value: Any, field: str, rule: str) -> None:
+    site_file = tmp_path / "site.yaml"
+    site_file.write_text(yaml.safe_dump(edited(path, value)))
+    report = tmp_path / "report.md"
+    run = cli("check", site_file, "--markdown", report)
+    assert run.code == 2, run.stdout
+    assert field in run.stderr and rule in run.stderr
+    assert "Traceback" not in run.stderr
+    assert not report.exists()
+
+
+def test_not_a_mapping_and_bad_yaml(cli: Any, tmp_path: Path) -> None:
+    for text, rule in (("- just\n- a list\n", "mapping"), ("name: [unclosed\n", "not valid YAML")):
+        site_file = tmp_path / "site.yaml"
+        site_file.write_text(text)
+        run = cli("check", site_file)
+        assert run.code == 2 and rule in run.stderr and str(site_file) in run.stderr
+
+
+def test_missing_site_file(cli: Any, tmp_path: Path) -> None:
+    run = cli("check", tmp_path / "nowhere.yaml")
+    assert run.code == 2 and "cannot read" in run.stderr
