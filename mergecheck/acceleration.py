@@ -138,7 +138,7 @@ class Tabulated:
 
     def acceleration(self, speed: ArrayLike, grade: ArrayLike, elevation: ArrayLike = 0.0) -> FloatArray:
         level = np.interp(np.asarray(speed, dtype=float), self.speeds, self.accelerations)
-        return level - self.grade_response * STANDARD_GRAVITY * np.asarray(grade, dtype=float)
+        return np.asarray(level - self.grade_response * STANDARD_GRAVITY * np.asarray(grade, dtype=float), dtype=float)
 
 
 @dataclass(frozen=True, slots=True)

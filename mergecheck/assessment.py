@@ -208,7 +208,9 @@ def _assumptions(
         Assumption(
             "Mainline operating speed at the merge",
             show(site.operating_speed, "speed", "si"),
-            "site file" if site.operating_speed_given else "not given: taken equal to the design speed (the conservative case)",
+            "site file"
+            if site.operating_speed_given
+            else "not given: taken equal to the design speed (the conservative case)",
         ),
         Assumption("Speed leaving the controlling curve", show(initial, "speed", "si"), initial_basis),
         Assumption(
@@ -233,7 +235,11 @@ def _assumptions(
             "crash involvement rises steeply as speed departs from the stream's (Solomon, 1964, from memory); "
             "threshold is a site criterion",
         ),
-        Assumption("Elevation at station 0", show(site.elevation, "length", "si"), "site file (0 m if not given); lowers air density and engine power"),
+        Assumption(
+            "Elevation at station 0",
+            show(site.elevation, "length", "si"),
+            "site file (0 m if not given); lowers air density and engine power",
+        ),
         Assumption(
             "Integration",
             "speed integrated along distance, grade as a function of station",

@@ -11,6 +11,7 @@ import sys
 import tempfile
 from collections.abc import Sequence
 from pathlib import Path
+from typing import NoReturn
 
 from pydantic import ValidationError
 from rich.console import Console
@@ -31,7 +32,7 @@ EXIT_OK, EXIT_SHORT, EXIT_INPUT = 0, 1, 2
 
 
 class _Parser(argparse.ArgumentParser):
-    def error(self, message: str) -> None:  # argparse's own usage errors: exit 2, no traceback
+    def error(self, message: str) -> NoReturn:  # argparse's own usage errors: exit 2, no traceback
         self.print_usage(sys.stderr)
         self.exit(EXIT_INPUT, f"mergecheck: error: {message}\n")
 
@@ -58,7 +59,9 @@ def build_parser() -> argparse.ArgumentParser:
     check = commands.add_parser("check", help="check an entrance ramp's acceleration lane (a site file)")
     check.add_argument("site", help="site file (YAML)")
     check.add_argument("--units", choices=["si", "us"], default="si", help="unit system for display")
-    check.add_argument("--json", nargs="?", const="-", metavar="FILE", help="write JSON (SI values) to FILE, or to standard output")
+    check.add_argument(
+        "--json", nargs="?", const="-", metavar="FILE", help="write JSON (SI values) to FILE, or to standard output"
+    )
     check.add_argument("--markdown", metavar="FILE", help="write the report as Markdown to FILE")
 
     commands.add_parser("schema", help="print the JSON Schema of the site file")
@@ -112,7 +115,9 @@ def _accel(args: argparse.Namespace, out: Console) -> int:
         if args.elevation is None:
             elevation = file_elevation
     if not -500.0 <= elevation <= 5000.0:
-        raise InputError("command line" if args.elevation else args.profile, "elevation", "must lie between -500 m and 5000 m")
+        raise InputError(
+            "command line" if args.elevation else args.profile, "elevation", "must lie between -500 m and 5000 m"
+        )
     trajectory = accelerate(vehicle.model, profile, initial, target, elevation=elevation)
     run = AccelerationRun(vehicle=vehicle, profile=profile, elevation=elevation, trajectory=trajectory)
     if args.json:

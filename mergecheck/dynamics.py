@@ -158,7 +158,7 @@ class PowerLimitedVehicle:
         power_share = np.minimum(1.0, self.power_at_rest + (1.0 - self.power_at_rest) * v / self.full_power_speed)
         engine = self.efficiency * power_share * self.power * density_ratio**self.power_elevation_exponent / v
         adhesion_limit = self.adhesion * self.driven_axle_share * self.mass * STANDARD_GRAVITY
-        return np.minimum(engine, adhesion_limit)
+        return np.asarray(np.minimum(engine, adhesion_limit), dtype=float)
 
     def resistance(self, speed: ArrayLike, grade: ArrayLike, elevation: ArrayLike = 0.0) -> FloatArray:
         """Total road load: aerodynamic, rolling and grade, Eqs. (4)-(6). [N]"""
@@ -171,7 +171,7 @@ class PowerLimitedVehicle:
             * np.cos(theta)
             * rolling_resistance_coefficient(v, self.rolling_surface, self.rolling_c2, self.rolling_c3)
         )
-        return aerodynamic + rolling + weight * np.sin(theta)
+        return np.asarray(aerodynamic + rolling + weight * np.sin(theta), dtype=float)
 
     def acceleration(self, speed: ArrayLike, grade: ArrayLike, elevation: ArrayLike = 0.0) -> FloatArray:
         """Maximum acceleration, Eq. (1). [m/s^2]"""

@@ -55,14 +55,18 @@ def build_profile(points: list[GradePoint], source: str, field: str) -> Vertical
         station = parse_quantity(point.start, "length", source=source, field=f"{where}.from")
         grade = parse_quantity(point.grade, "grade", source=source, field=f"{where}.grade")
         if abs(grade) > MAX_GRADE:
-            raise InputError(source, f"{where}.grade", f"{point.grade} is steeper than the {MAX_GRADE:.0%} any standard allows")
+            raise InputError(
+                source, f"{where}.grade", f"{point.grade} is steeper than the {MAX_GRADE:.0%} any standard allows"
+            )
         curve = 0.0
         if point.vertical_curve is not None:
             curve = parse_quantity(point.vertical_curve, "length", source=source, field=f"{where}.vertical_curve")
             if curve <= 0:
                 raise InputError(source, f"{where}.vertical_curve", "a vertical curve must have a positive length")
             if i == 0:
-                raise InputError(source, f"{where}.vertical_curve", "the first grade has no incoming grade to curve from")
+                raise InputError(
+                    source, f"{where}.vertical_curve", "the first grade has no incoming grade to curve from"
+                )
         if i == 0 and station != 0:
             raise InputError(source, f"{where}.from", "the first grade must start at station 0")
         if i > 0 and station <= stations[-1]:
@@ -70,7 +74,9 @@ def build_profile(points: list[GradePoint], source: str, field: str) -> Vertical
         if i > 0:
             previous_end = stations[-1] + curves[-1] / 2
             if station - curve / 2 < max(previous_end, 0.0):
-                raise InputError(source, f"{where}.vertical_curve", "vertical curve overlaps the previous one or station 0")
+                raise InputError(
+                    source, f"{where}.vertical_curve", "vertical curve overlaps the previous one or station 0"
+                )
         stations.append(station)
         grades.append(grade)
         curves.append(curve)

@@ -18,6 +18,7 @@ is given for it.
 from __future__ import annotations
 
 import importlib.resources
+import itertools
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -85,7 +86,7 @@ class _PolicyFile(BaseModel):
         numeric = [s for s in self.ramp_speeds if s != "stop"]
         if any(isinstance(s, str) for s in numeric):
             raise ValueError("ramp speeds are numbers or 'stop'")
-        if any(b <= a for a, b in zip(numeric, numeric[1:], strict=False)):  # type: ignore[operator]
+        if any(b <= a for a, b in itertools.pairwise(numeric)):  # type: ignore[operator]
             raise ValueError("ramp_speeds must increase")
         return self
 
@@ -242,7 +243,9 @@ def initial_speed_for(table: PolicyTable, controlling_speed: float | None) -> fl
     return _linear(table.ramp_speeds, table.ramp_initial_speeds, controlling_speed)
 
 
-def policy_minimum(table: PolicyTable, design_speed: float, controlling_speed: float | None, grade: float) -> PolicyValue:
+def policy_minimum(
+    table: PolicyTable, design_speed: float, controlling_speed: float | None, grade: float
+) -> PolicyValue:
     """Policy minimum acceleration length for a site.
 
     Parameters
@@ -257,21 +260,37 @@ def policy_minimum(table: PolicyTable, design_speed: float, controlling_speed: f
     merge = _linear(table.highway_speeds, table.merge_speeds, design_speed)
     if controlling_speed is None:
         if table.stop_lengths is None:
-            return PolicyValue(table, None, None, None, grade, merge, "the table has no column for a ramp that starts from a stop")
+            return PolicyValue(
+                table, None, None, None, grade, merge, "the table has no column for a ramp that starts from a stop"
+            )
         level = _linear(table.highway_speeds, table.stop_lengths, design_speed)
     else:
         level = _bilinear(table.highway_speeds, table.ramp_speeds, table.lengths, design_speed, controlling_speed)
     if level is None:
-        return PolicyValue(table, None, None, None, grade, merge, "the combination of highway and ramp speeds is outside the table")
+        return PolicyValue(
+            table, None, None, None, grade, merge, "the combination of highway and ramp speeds is outside the table"
+        )
     if grade < FLAT_GRADE_LIMIT:
-        note = "flat-grade value (grade below 3 %)" if grade > -FLAT_GRADE_LIMIT else "flat-grade value; the table's downgrade factors (below 1) were not applied"
+        note = (
+            "flat-grade value (grade below 3 %)"
+            if grade > -FLAT_GRADE_LIMIT
+            else "flat-grade value; the table's downgrade factors (below 1) were not applied"
+        )
         return PolicyValue(table, level, level, 1.0, grade, merge, note)
     for block in table.grade_factors:
         if block.min_grade - 1e-9 <= grade <= block.max_grade + 1e-9:
             if controlling_speed is None:
-                return PolicyValue(table, None, level, None, grade, merge, "the grade factors have no column for a stop")
+                return PolicyValue(
+                    table, None, level, None, grade, merge, "the grade factors have no column for a stop"
+                )
             factor = _bilinear(block.highway_speeds, block.ramp_speeds, block.factors, design_speed, controlling_speed)
             if factor is None:
-                return PolicyValue(table, None, level, None, grade, merge, "no grade factor for this combination of speeds")
-            return PolicyValue(table, level * factor, level, factor, grade, merge, f"level value times grade factor {factor:.2f}")
-    return PolicyValue(table, None, level, None, grade, merge, f"no grade factors for a {grade:.1%} upgrade in this table")
+                return PolicyValue(
+                    table, None, level, None, grade, merge, "no grade factor for this combination of speeds"
+                )
+            return PolicyValue(
+                table, level * factor, level, factor, grade, merge, f"level value times grade factor {factor:.2f}"
+            )
+    return PolicyValue(
+        table, None, level, None, grade, merge, f"no grade factors for a {grade:.1%} upgrade in this table"
+    )

@@ -42,9 +42,14 @@ class MainlineInput(_Strict):
     )
     lanes: int = Field(ge=1, le=8, description="Through lanes per direction upstream of the merge.")
     lanes_downstream: int | None = Field(
-        default=None, ge=1, le=9, description="Through lanes per direction downstream, if the count changes (e.g. a lane added)."
+        default=None,
+        ge=1,
+        le=9,
+        description="Through lanes per direction downstream, if the count changes (e.g. a lane added).",
     )
-    adjacent_lane_flow: str = Field(description="Design-hour flow in the lane ramp traffic merges into, e.g. '1400 veh/h'.")
+    adjacent_lane_flow: str = Field(
+        description="Design-hour flow in the lane ramp traffic merges into, e.g. '1400 veh/h'."
+    )
 
 
 class RampInput(_Strict):
@@ -216,7 +221,11 @@ def site_from_input(data: SiteInput, source: str) -> Site:
         return parse_quantity(text, kind, source=source, field=field)
 
     design = q(data.mainline.design_speed, "speed", "mainline.design_speed")
-    operating = design if data.mainline.operating_speed is None else q(data.mainline.operating_speed, "speed", "mainline.operating_speed")
+    operating = (
+        design
+        if data.mainline.operating_speed is None
+        else q(data.mainline.operating_speed, "speed", "mainline.operating_speed")
+    )
     for field, value in (("mainline.design_speed", design), ("mainline.operating_speed", operating)):
         if not 40 / 3.6 <= value <= 160 / 3.6:
             raise InputError(source, field, "must lie between 40 and 160 km/h for a freeway or expressway merge")
@@ -230,7 +239,11 @@ def site_from_input(data: SiteInput, source: str) -> Site:
         if controlling <= 0:
             raise InputError(source, "ramp.controlling_speed", "must be positive (or 'stop')")
         if controlling >= operating:
-            raise InputError(source, "ramp.controlling_speed", "must be below the mainline operating speed: no acceleration lane is needed otherwise")
+            raise InputError(
+                source,
+                "ramp.controlling_speed",
+                "must be below the mainline operating speed: no acceleration lane is needed otherwise",
+            )
     initial: float | None = None
     if data.ramp.initial_speed is not None:
         initial = q(data.ramp.initial_speed, "speed", "ramp.initial_speed")
@@ -248,7 +261,9 @@ def site_from_input(data: SiteInput, source: str) -> Site:
         raise InputError(source, "criteria.flag_speed_differential", "must be positive")
     unknown = sorted(set(data.criteria.vehicles) - set(data.ramp.vehicles))
     if unknown:
-        raise InputError(source, f"criteria.vehicles.{unknown[0]}", "criteria given for a vehicle not listed under ramp.vehicles")
+        raise InputError(
+            source, f"criteria.vehicles.{unknown[0]}", "criteria given for a vehicle not listed under ramp.vehicles"
+        )
     shares = data.ramp.vehicles
     total = sum(shares.values())
     if abs(total - 1.0) > SHARE_TOLERANCE:
@@ -263,7 +278,9 @@ def site_from_input(data: SiteInput, source: str) -> Site:
         differential = base_differential
         override = data.criteria.vehicles.get(ref)
         if override is not None and override.merge_speed_differential is not None:
-            differential = q(override.merge_speed_differential, "speed", f"criteria.vehicles.{ref}.merge_speed_differential")
+            differential = q(
+                override.merge_speed_differential, "speed", f"criteria.vehicles.{ref}.merge_speed_differential"
+            )
         where = f"criteria.vehicles.{ref}.merge_speed_differential" if override else "criteria.merge_speed_differential"
         if not 0 <= differential < operating:
             raise InputError(source, where, "must be at least 0 and below the operating speed")
@@ -323,7 +340,9 @@ def _site_vehicle(ref: str, base_dir: Path, source: str, field: str) -> DesignVe
         path = Path(ref) if Path(ref).is_absolute() else base_dir / ref
         return load_vehicle(str(path))
     if ref not in bundled_ids():
-        raise InputError(source, field, f"unknown vehicle id; known ids: {', '.join(bundled_ids())}, or a profile file path")
+        raise InputError(
+            source, field, f"unknown vehicle id; known ids: {', '.join(bundled_ids())}, or a profile file path"
+        )
     return load_vehicle(ref)
 
 

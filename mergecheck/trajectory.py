@@ -94,7 +94,7 @@ class Trajectory:
         x = np.asarray(station, dtype=float)
         if np.any(x < self.station[0] - 1e-9) or np.any(x > self.station[-1] + 1e-9):
             raise ValueError("station outside the integrated range")
-        return np.sqrt(np.interp(x, self.station, self.speed**2))
+        return np.asarray(np.sqrt(np.interp(x, self.station, self.speed**2)), dtype=float)
 
     def time_at(self, station: ArrayLike) -> FloatArray:
         """Time at stations within the integrated range. [s]
@@ -110,39 +110,38 @@ class Trajectory:
         return np.asarray(self.time[i] + step, dtype=float)
 
 
-def equilibrium_speed(
-    model: AccelerationModel, grade: float, elevation: float, from_speed: float
-) -> float | None:
+def equilibrium_speed(model: AccelerationModel, grade: float, elevation: float, from_speed: float) -> float | None:
     """Stable equilibrium speed a vehicle tends to on a constant grade. [m/s]
 
     From ``from_speed`` the vehicle accelerates (a > 0) up to the first speed
     above it where a(v) falls through zero, or decelerates (a < 0) down to the
-    highest speed below it where a(v) rises through zero going down; 0 when
-    it cannot hold any speed. None when it accelerates beyond 80 m/s.
+    highest speed below it where a(v) falls through zero; 0 when it cannot
+    hold any speed. None when it accelerates beyond 80 m/s. The crossing is
+    bracketed on a 0.05 m/s grid and refined with Brent's method.
     """
-    speeds = np.linspace(0.0, _SCAN_SPEED_MAX, 1601)
-    accel = model.acceleration(speeds, grade, elevation)
 
     def f(v: float) -> float:
         return float(model.acceleration(v, grade, elevation))
 
+    speeds = np.linspace(0.0, _SCAN_SPEED_MAX, 1601)
+    accel = model.acceleration(speeds, grade, elevation)
+    falls = np.flatnonzero((accel[:-1] > 0) & (accel[1:] <= 0))  # a(v) crosses zero going down
     a_here = f(from_speed)
     if a_here == 0.0:
         return from_speed
     if a_here > 0:
-        above = speeds > from_speed
-        idx = np.flatnonzero(above[:-1] & (accel[:-1] > 0) & (accel[1:] <= 0))
-        candidates = [i for i in idx if speeds[i + 1] > from_speed]
-        if not candidates:
+        ahead = falls[speeds[falls + 1] > from_speed]
+        if ahead.size == 0:
             return None
-        i = candidates[0]
-        low = max(from_speed, float(speeds[i]))
-        return float(brentq(f, low, float(speeds[i + 1]), xtol=1e-10)) if f(float(speeds[i + 1])) < 0 else float(speeds[i + 1])
-    below = np.flatnonzero((speeds[1:] < from_speed) & (accel[:-1] > 0) & (accel[1:] <= 0))
-    if below.size == 0:
-        return 0.0
-    i = int(below[-1])
-    return float(brentq(f, float(speeds[i]), float(speeds[i + 1]), xtol=1e-10))
+        low, high = max(from_speed, float(speeds[ahead[0]])), float(speeds[ahead[0] + 1])
+    else:
+        behind = falls[speeds[falls] < from_speed]
+        if behind.size == 0:
+            return 0.0
+        low, high = float(speeds[behind[-1]]), min(from_speed, float(speeds[behind[-1] + 1]))
+    if f(high) == 0.0:
+        return high
+    return float(brentq(f, low, high, xtol=1e-10))
 
 
 def accelerate(

@@ -13,11 +13,11 @@ from __future__ import annotations
 
 import math
 from dataclasses import dataclass
-from typing import Literal
+from typing import Any, Literal
 
 import pint
 
-ureg = pint.UnitRegistry()
+ureg: pint.UnitRegistry[Any] = pint.UnitRegistry()
 ureg.define("vehicle = [] = veh")
 ureg.define("passenger_car = [] = pc = pcu")
 
@@ -66,7 +66,7 @@ def parse_quantity(text: object, kind: str, *, source: str, field: str) -> float
     if not isinstance(text, str):
         raise _bad(source, field, f"expected {example}, got {text!r}")
     try:
-        quantity = ureg.Quantity(text.strip())
+        quantity: Any = ureg.Quantity(text.strip())
     except (pint.errors.PintError, ValueError, TypeError, AttributeError, SyntaxError):
         raise _bad(source, field, f"cannot read {text!r} as a quantity: expected {example}") from None
     if not isinstance(quantity, pint.Quantity):

@@ -169,7 +169,9 @@ def load_vehicle(ref: str) -> DesignVehicle:
             raise InputError(ref, "", f"cannot read the vehicle profile: {error.strerror}") from None
         return parse_vehicle(text, ref)
     if ref not in bundled_ids():
-        raise InputError("vehicle", ref, f"unknown vehicle id; known ids: {', '.join(bundled_ids())}, or a profile file path")
+        raise InputError(
+            "vehicle", ref, f"unknown vehicle id; known ids: {', '.join(bundled_ids())}, or a profile file path"
+        )
     text = (bundled_profiles() / f"{ref}.yaml").read_text(encoding="utf-8")
     return parse_vehicle(text, ref)
 
@@ -240,7 +242,9 @@ def pydantic_error(error: ValidationError, source: str) -> InputError:
 
 def _forbid(source: str, data: _ProfileFile, *, capability: bool, table: bool) -> None:
     if data.capability is not None and not capability:
-        raise InputError(source, "capability", f"only the linear-decreasing model takes a capability block, not {data.model}")
+        raise InputError(
+            source, "capability", f"only the linear-decreasing model takes a capability block, not {data.model}"
+        )
     if data.table is not None and not table:
         raise InputError(source, "table", f"only the tabulated model takes a table, not {data.model}")
     if table and data.table is None:
@@ -286,7 +290,9 @@ def _read(
                 try:
                     value = float(entry.value)
                 except ValueError:
-                    raise InputError(source, f"{field}.value", f"expected a plain number, got {entry.value!r}") from None
+                    raise InputError(
+                        source, f"{field}.value", f"expected a plain number, got {entry.value!r}"
+                    ) from None
             else:
                 value = float(entry.value)
             if not math.isfinite(value):
@@ -303,14 +309,24 @@ def _read(
 def _range(spec: Spec) -> str:
     if spec.kind == "ratio":
         return f"{spec.low:g} to {spec.high:g}"
-    si = {"mass": "kg", "power": "W", "weight_to_power": "kg/W", "area": "m^2", "speed": "m/s",
-          "acceleration": "m/s^2", "frequency": "1/s"}[spec.kind]
+    si = {
+        "mass": "kg",
+        "power": "W",
+        "weight_to_power": "kg/W",
+        "area": "m^2",
+        "speed": "m/s",
+        "acceleration": "m/s^2",
+        "frequency": "1/s",
+    }[spec.kind]
     return f"{spec.low:g} to {spec.high:g} {si}"
 
 
 def _tabulated(table: _Table, grade_response: float, source: str) -> Tabulated:
     factors = []
-    for name, unit, kind in (("speed_unit", table.speed_unit, "speed"), ("acceleration_unit", table.acceleration_unit, "acceleration")):
+    for name, unit, kind in (
+        ("speed_unit", table.speed_unit, "speed"),
+        ("acceleration_unit", table.acceleration_unit, "acceleration"),
+    ):
         factors.append(parse_quantity(f"1 {unit}", kind, source=source, field=f"table.{name}"))
     speeds = [row[0] * factors[0] for row in table.rows]
     accelerations = [row[1] * factors[1] for row in table.rows]
@@ -320,5 +336,3 @@ def _tabulated(table: _Table, grade_response: float, source: str) -> Tabulated:
         if i and v <= speeds[i - 1]:
             raise InputError(source, f"table.rows.{i}", "speeds must increase from row to row")
     return Tabulated(tuple(speeds), tuple(accelerations), grade_response)
-
-

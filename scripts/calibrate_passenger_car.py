@@ -64,7 +64,11 @@ def main() -> None:
         alpha, beta, kappa = p
         level = [math.log(level_length(alpha, beta, v0, v) / L) for _, _, v, v0, L in cells]
         graded = [
-            math.log(level_length(alpha - kappa * STANDARD_GRAVITY * GRADE, beta, v0, v) / level_length(alpha, beta, v0, v) / f)
+            math.log(
+                level_length(alpha - kappa * STANDARD_GRAVITY * GRADE, beta, v0, v)
+                / level_length(alpha, beta, v0, v)
+                / f
+            )
             for _, _, v, v0, f in factors
         ]
         return np.array(level + graded)
@@ -75,7 +79,9 @@ def main() -> None:
     n = len(cells)
     print(f"alpha = {alpha:.4f} m/s^2, beta = {beta:.5f} 1/s, kappa = {kappa:.4f}, alpha/beta = {alpha / beta:.2f} m/s")
     print(f"level cells: {n}, rms {np.sqrt(np.mean(r[:n] ** 2)):.1f} %, max |error| {np.max(np.abs(r[:n])):.1f} %")
-    print(f"grade factors: {len(factors)}, rms {np.sqrt(np.mean(r[n:] ** 2)):.1f} %, max |error| {np.max(np.abs(r[n:])):.1f} %")
+    print(
+        f"grade factors: {len(factors)}, rms {np.sqrt(np.mean(r[n:] ** 2)):.1f} %, max |error| {np.max(np.abs(r[n:])):.1f} %"
+    )
     for (V, ramp, *_), e in zip(cells, r[:n], strict=True):
         print(f"  level  V={V} mph  V'={ramp!s:>4}: {e:+5.1f} %")
     for (V, ramp, *_), e in zip(factors, r[n:], strict=True):
@@ -88,7 +94,9 @@ def main() -> None:
     speeds = np.linspace(0.0, top, 200)
     chosen = alpha - beta * speeds - kappa * STANDARD_GRAVITY * 0.04
     headroom = capability.acceleration(speeds, 0.04) - chosen
-    print(f"capability headroom on a 4 % upgrade up to {top:.1f} m/s: min {headroom.min():.2f} m/s^2 (> 0: cap never binds)")
+    print(
+        f"capability headroom on a 4 % upgrade up to {top:.1f} m/s: min {headroom.min():.2f} m/s^2 (> 0: cap never binds)"
+    )
 
 
 if __name__ == "__main__":

@@ -13,7 +13,15 @@ def test_accel_json_keys_and_values(cli: Any) -> None:
     run = cli("accel", "--vehicle", "passenger-car", "--from", "0 mph", "--to", "53 mph", "--grade", "0 %", "--json")
     assert run.code == 0, run.stderr
     doc = run.json()
-    for key in ("vehicle", "initial_speed_m_s", "target_speed_m_s", "reaches_target", "distance_m", "time_s", "crawl_speed_m_s"):
+    for key in (
+        "vehicle",
+        "initial_speed_m_s",
+        "target_speed_m_s",
+        "reaches_target",
+        "distance_m",
+        "time_s",
+        "crawl_speed_m_s",
+    ):
         assert key in doc
     assert doc["reaches_target"] is True and doc["crawl_speed_m_s"] is None
     assert doc["distance_m"] == pytest.approx(1620 * 0.3048, rel=0.03)
@@ -23,7 +31,9 @@ def test_accel_json_keys_and_values(cli: Any) -> None:
 
 def test_accel_truck_cannot_reach(cli: Any) -> None:
     """Issue 2, done means: semitrailer-design, 5 % upgrade, 50 to 90 km/h."""
-    run = cli("accel", "--vehicle", "semitrailer-design", "--from", "50 km/h", "--to", "90 km/h", "--grade", "5 %", "--json")
+    run = cli(
+        "accel", "--vehicle", "semitrailer-design", "--from", "50 km/h", "--to", "90 km/h", "--grade", "5 %", "--json"
+    )
     assert run.code == 0, run.stderr
     doc = run.json()
     assert doc["reaches_target"] is False
@@ -39,14 +49,29 @@ def test_same_case_in_si_and_us_units(cli: Any, tmp_path: Path) -> None:
     us = tmp_path / "us.yaml"
     si.write_text("profile:\n  - {from: 0 m, grade: 2 %}\n  - {from: 152.4 m, grade: 4 %, vertical_curve: 60.96 m}\n")
     us.write_text("profile:\n  - {from: 0 ft, grade: 2 %}\n  - {from: 500 ft, grade: 4 %, vertical_curve: 200 ft}\n")
-    a = cli("accel", "--vehicle", "semitrailer-fleet", "--from", "40 km/h", "--to", "70 km/h", "--profile", si, "--json").json()
-    b = cli("accel", "--vehicle", "semitrailer-fleet", "--from", "24.8548477 mph", "--to", "43.4959835 mph", "--profile", us, "--json").json()
+    a = cli(
+        "accel", "--vehicle", "semitrailer-fleet", "--from", "40 km/h", "--to", "70 km/h", "--profile", si, "--json"
+    ).json()
+    b = cli(
+        "accel",
+        "--vehicle",
+        "semitrailer-fleet",
+        "--from",
+        "24.8548477 mph",
+        "--to",
+        "43.4959835 mph",
+        "--profile",
+        us,
+        "--json",
+    ).json()
     assert a["distance_m"] == pytest.approx(b["distance_m"], rel=1e-6)
     assert a["time_s"] == pytest.approx(b["time_s"], rel=1e-6)
 
 
 def test_display_in_us_units(cli: Any) -> None:
-    run = cli("accel", "--vehicle", "passenger-car", "--from", "0 km/h", "--to", "85 km/h", "--grade", "0 %", "--units", "us")
+    run = cli(
+        "accel", "--vehicle", "passenger-car", "--from", "0 km/h", "--to", "85 km/h", "--grade", "0 %", "--units", "us"
+    )
     assert run.code == 0 and "mph" in run.stdout and "ft" in run.stdout
 
 
@@ -60,7 +85,18 @@ def test_vehicles_listing(cli: Any) -> None:
 
 
 def test_user_profile_by_path(cli: Any, repo: Path) -> None:
-    run = cli("accel", "--vehicle", repo / "examples" / "vehicle-grain-truck.yaml", "--from", "0 km/h", "--to", "60 km/h", "--grade", "2 %", "--json")
+    run = cli(
+        "accel",
+        "--vehicle",
+        repo / "examples" / "vehicle-grain-truck.yaml",
+        "--from",
+        "0 km/h",
+        "--to",
+        "60 km/h",
+        "--grade",
+        "2 %",
+        "--json",
+    )
     assert run.code == 0, run.stderr
     assert run.json()["vehicle"] == "grain-truck"
 
@@ -98,7 +134,10 @@ def test_unknown_vehicle_lists_known_ids(cli: Any) -> None:
         ("profile:\n  - {from: 0 m, grade: 12 %}\n", "profile.0.grade"),
         ("profile:\n  - {from: 0 m, grade: 2}\n", "profile.0.grade"),
         ("profile:\n  - {from: 0 m, slope: 2 %}\n", "profile.0"),
-        ("profile:\n  - {from: 0 m, grade: 2 %}\n  - {from: 100 m, grade: 3 %, vertical_curve: 300 m}\n", "profile.1.vertical_curve"),
+        (
+            "profile:\n  - {from: 0 m, grade: 2 %}\n  - {from: 100 m, grade: 3 %, vertical_curve: 300 m}\n",
+            "profile.1.vertical_curve",
+        ),
         ("profile: [\n", "not valid YAML"),
         ("elevation: high\nprofile:\n  - {from: 0 m, grade: 2 %}\n", "elevation"),
     ],

@@ -20,7 +20,14 @@ G = 9.80665
 
 def test_required_ids_are_bundled() -> None:
     """Issue 2 lists the ids every installation must have."""
-    required = {"passenger-car", "single-unit-truck", "bus", "semitrailer-design", "semitrailer-fleet", "recreational-vehicle"}
+    required = {
+        "passenger-car",
+        "single-unit-truck",
+        "bus",
+        "semitrailer-design",
+        "semitrailer-fleet",
+        "recreational-vehicle",
+    }
     assert required <= set(bundled_ids())
 
 
@@ -103,7 +110,10 @@ def test_fleet_truck_climbs_better_than_design_truck() -> None:
 def test_heavy_vehicles_rank_between_car_and_design_truck(vehicle_id: str) -> None:
     """Common practice: every heavy design vehicle needs more length than a car and less than the design truck."""
     level = VerticalProfile.constant(0.0)
-    lengths = {v: accelerate(load_vehicle(v).model, level, 0.0, 80 / 3.6).distance for v in ("passenger-car", "semitrailer-design", vehicle_id)}
+    lengths = {
+        v: accelerate(load_vehicle(v).model, level, 0.0, 80 / 3.6).distance
+        for v in ("passenger-car", "semitrailer-design", vehicle_id)
+    }
     assert all(x is not None for x in lengths.values())
     assert lengths["semitrailer-design"] > lengths[vehicle_id]  # type: ignore[operator]
 

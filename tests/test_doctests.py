@@ -10,7 +10,9 @@ import pytest
 
 import mergecheck
 
-MODULES = sorted(name for _, name, _ in pkgutil.walk_packages(mergecheck.__path__, "mergecheck.") if not name.endswith("__main__"))
+MODULES = sorted(
+    name for _, name, _ in pkgutil.walk_packages(mergecheck.__path__, "mergecheck.") if not name.endswith("__main__")
+)
 
 
 @pytest.mark.parametrize("name", MODULES)

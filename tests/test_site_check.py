@@ -60,17 +60,23 @@ def test_issue_minimal_form(cli: Any, repo: Path) -> None:
     assert "Cautions" in run.stdout and "licensed engineer" in run.stdout
 
 
-@pytest.mark.parametrize("example", ["willowmere-level", "quarry-hill-upgrade", "harbour-street-constrained", "larkspur-road"])
+@pytest.mark.parametrize(
+    "example", ["willowmere-level", "quarry-hill-upgrade", "harbour-street-constrained", "larkspur-road"]
+)
 def test_required_length_is_the_trajectory_distance(repo: Path, example: str) -> None:
     """Required length = distance at which an independent run of the integrator reaches merge speed, less the ramp."""
     assessment = assess(load_site(str(repo / "examples" / f"{example}.yaml")))
     site = assessment.site
     for result in assessment.vehicles:
-        run = accelerate(result.vehicle.model, site.profile, assessment.initial_speed, result.merge_speed, elevation=site.elevation)
+        run = accelerate(
+            result.vehicle.model, site.profile, assessment.initial_speed, result.merge_speed, elevation=site.elevation
+        )
         if run.distance is None:
             assert result.required_length is None and result.verdict == "cannot-reach"
         else:
-            assert result.required_length == pytest.approx(max(0.0, run.distance - site.convergence), rel=1e-9, abs=1e-9)
+            assert result.required_length == pytest.approx(
+                max(0.0, run.distance - site.convergence), rel=1e-9, abs=1e-9
+            )
 
 
 def test_units_of_display_do_not_change_results(cli: Any, repo: Path, tmp_path: Path) -> None:
@@ -86,14 +92,22 @@ def test_markdown_and_json_files(cli: Any, repo: Path, tmp_path: Path) -> None:
     run = cli("check", repo / "examples" / "harbour-street-constrained.yaml", "--markdown", md, "--json", js)
     assert run.code == 1
     text = md.read_text()
-    for heading in ("# Acceleration-lane check", "## Acceleration length", "## Policy minimum", "## Assumptions", "## Cautions"):
+    for heading in (
+        "# Acceleration-lane check",
+        "## Acceleration length",
+        "## Policy minimum",
+        "## Assumptions",
+        "## Cautions",
+    ):
         assert heading in text
     assert json.loads(js.read_text())["verdict"] == "short"
 
 
 def test_output_into_missing_folder_writes_nothing(cli: Any, repo: Path, tmp_path: Path) -> None:
     md = tmp_path / "report.md"
-    run = cli("check", repo / "examples" / "willowmere-level.yaml", "--markdown", md, "--json", tmp_path / "no" / "r.json")
+    run = cli(
+        "check", repo / "examples" / "willowmere-level.yaml", "--markdown", md, "--json", tmp_path / "no" / "r.json"
+    )
     assert run.code == 2 and "does not exist" in run.stderr
     assert not md.exists()
 

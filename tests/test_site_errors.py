@@ -61,14 +61,26 @@ CASES = [
     (("mainline", "speed_limit"), "100 km/h", "mainline.speed_limit", "unknown field"),
     (("geometry", "entrance"), "loop", "geometry.entrance", "parallel"),
     (("geometry", "profile", 1, "from"), "900 m", "geometry.profile.1.from", "beyond the end of the taper"),
-    (("criteria",), {"merge_speed_differential": "120 km/h"}, "criteria.merge_speed_differential", "below the operating speed"),
-    (("criteria",), {"vehicles": {"bus": {"merge_speed_differential": "5 km/h"}}}, "criteria.vehicles.bus", "not listed"),
+    (
+        ("criteria",),
+        {"merge_speed_differential": "120 km/h"},
+        "criteria.merge_speed_differential",
+        "below the operating speed",
+    ),
+    (
+        ("criteria",),
+        {"vehicles": {"bus": {"merge_speed_differential": "5 km/h"}}},
+        "criteria.vehicles.bus",
+        "not listed",
+    ),
     (("policy",), "missing-table.yaml", "missing-table.yaml", "cannot read"),
 ]
 
 
 @pytest.mark.parametrize(("path", "value", "field", "rule"), CASES, ids=[c[2] + ":" + c[3] for c in CASES])
-def test_bad_site_file(cli: Any, tmp_path: Path, path: tuple[str | int, ...], value: Any, field: str, rule: str) -> None:
+def test_bad_site_file(
+    cli: Any, tmp_path: Path, path: tuple[str | int, ...], value: Any, field: str, rule: str
+) -> None:
     site_file = tmp_path / "site.yaml"
     site_file.write_text(yaml.safe_dump(edited(path, value)))
     report = tmp_path / "report.md"

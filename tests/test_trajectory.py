@@ -106,3 +106,13 @@ def test_speed_already_at_target() -> None:
     run = accelerate(Tabulated((0.0, 40.0), (1.0, 1.0)), LEVEL, 25.0, 20.0, through=100.0)
     assert run.distance == 0.0 and run.duration == 0.0
     assert run.station[-1] == pytest.approx(100.0)
+
+
+@pytest.mark.parametrize("from_speed", [0.0, 5.0, 13.27, 13.3, 13.5, 20.0, 35.0])
+def test_equilibrium_speed_is_the_same_from_below_and_above(from_speed: float) -> None:
+    """One stable equilibrium on a constant grade, reached from any start speed (including one a hair above it)."""
+    truck = load_vehicle("semitrailer-design").model
+    reference = equilibrium_speed(truck, 0.05, 0.0, 0.0)
+    assert reference is not None
+    assert equilibrium_speed(truck, 0.05, 0.0, from_speed) == pytest.approx(reference, rel=1e-9)
+    assert float(truck.acceleration(reference, 0.05)) == pytest.approx(0.0, abs=1e-9)

@@ -12,7 +12,7 @@ def _cell(text: object) -> str:
 
 
 def _num(value: float | None, kind: str, system: UnitSystem) -> str:
-    return "–" if value is None else f"{convert(value, kind, system):.{0 if kind == 'length' else 1}f}"
+    return "-" if value is None else f"{convert(value, kind, system):.{0 if kind == 'length' else 1}f}"
 
 
 def site_markdown(assessment: SiteAssessment, system: UnitSystem) -> str:
@@ -28,7 +28,11 @@ def site_markdown(assessment: SiteAssessment, system: UnitSystem) -> str:
     ]
     if site.notes:
         lines += [f"> {_cell(site.notes)}", ""]
-    ramp_start = "stop (stop line or ramp meter)" if site.controlling_speed is None else show(site.controlling_speed, "speed", system)
+    ramp_start = (
+        "stop (stop line or ramp meter)"
+        if site.controlling_speed is None
+        else show(site.controlling_speed, "speed", system)
+    )
     lines += [
         "## Layout",
         "",

@@ -49,7 +49,10 @@ def acceleration_view(run: AccelerationRun, system: UnitSystem) -> RenderableTyp
     head.add_row("Model", vehicle.model_name)
     if vehicle.weight_to_power is not None:
         head.add_row("Weight-to-power", show(vehicle.weight_to_power, "weight_to_power", system))
-    head.add_row("From / to", f"{show(trajectory.initial_speed, 'speed', system)} / {show(trajectory.target_speed, 'speed', system)}")
+    head.add_row(
+        "From / to",
+        f"{show(trajectory.initial_speed, 'speed', system)} / {show(trajectory.target_speed, 'speed', system)}",
+    )
     head.add_row("Elevation", show(run.elevation, "length", system))
 
     step = _table_interval(end - start, system)
@@ -66,7 +69,9 @@ def acceleration_view(run: AccelerationRun, system: UnitSystem) -> RenderableTyp
     times = trajectory.time_at(stations)
     grades = run.profile.grade(stations)
     for x, g, v, t in zip(stations, grades, speeds, times, strict=True):
-        marker = " ◂ target" if trajectory.target_station is not None and abs(x - trajectory.target_station) < 1e-9 else ""
+        marker = (
+            " ◂ target" if trajectory.target_station is not None and abs(x - trajectory.target_station) < 1e-9 else ""
+        )
         rows.add_row(
             f"{convert(x, 'length', system):.0f}",
             f"{100 * g:.2f}",
@@ -115,8 +120,15 @@ def site_view(assessment: SiteAssessment, system: UnitSystem) -> RenderableType:
         f"design {show(site.design_speed, 'speed', system)}, operating {show(site.operating_speed, 'speed', system)}, "
         f"{site.lanes} lanes, adjacent lane {site.adjacent_lane_flow * 3600:.0f} veh/h",
     )
-    ramp_start = "stop" if site.controlling_speed is None else f"controlling curve {show(site.controlling_speed, 'speed', system)}"
-    layout.add_row("Ramp", f"{ramp_start}, leaving at {show(assessment.initial_speed, 'speed', system)}, {site.ramp_flow * 3600:.0f} veh/h")
+    ramp_start = (
+        "stop"
+        if site.controlling_speed is None
+        else f"controlling curve {show(site.controlling_speed, 'speed', system)}"
+    )
+    layout.add_row(
+        "Ramp",
+        f"{ramp_start}, leaving at {show(assessment.initial_speed, 'speed', system)}, {site.ramp_flow * 3600:.0f} veh/h",
+    )
     layout.add_row(
         "Layout",
         f"{site.entrance} entrance: convergence point at {show(site.convergence, 'length', system)}, lane "
@@ -165,9 +177,22 @@ def site_view(assessment: SiteAssessment, system: UnitSystem) -> RenderableType:
             basis += f"; assumes merge at {show(policy.merge_speed, 'speed', system)}"
         lengths.add_row("policy minimum", "", value, _num(site.available_length, "length", system), "", basis)
 
-    parts: list[RenderableType] = [verdict, Text(summary_sentence(assessment, system)), Text(""), layout, Text(""), speeds, lengths]
+    parts: list[RenderableType] = [
+        verdict,
+        Text(summary_sentence(assessment, system)),
+        Text(""),
+        layout,
+        Text(""),
+        speeds,
+        lengths,
+    ]
     if policy is not None:
-        parts.append(Text(f"Policy: {policy.table.title}. {policy.table.source} Length measured: {policy.table.length_definition}", style="dim"))
+        parts.append(
+            Text(
+                f"Policy: {policy.table.title}. {policy.table.source} Length measured: {policy.table.length_definition}",
+                style="dim",
+            )
+        )
         if policy.table.caution:
             parts.append(Text(f"Policy caution: {policy.table.caution}", style="yellow"))
     assumptions = Table(title="Assumptions", title_justify="left", show_lines=False)
