@@ -9,12 +9,15 @@ required acceleration length is measured as the policy tables measure it:
 
 with x_merge the station where the vehicle reaches its merge speed (the
 operating speed less the merge speed differential) and x_cp the convergence
-point. The vehicle meets the check when L_req <= L_avail (the lane length plus
-any taper credit); it is short when it reaches merge speed beyond that; and it
-cannot reach merge speed when its crawl speed on the final grade is lower.
-The governing vehicle is the one needing the longest lane (a vehicle that
-cannot reach merge speed governs over any that can; among those, the one with
-the lowest speed at the end of the lane).
+point. Reaching merge speed is half the job: the driver must also find a gap
+in the adjacent lane (:mod:`mergecheck.gap_acceptance`), and the length for
+the target merge reliability L_rel is where the probability of having merged
+reaches the target. The vehicle meets the check when
+max(L_req, L_rel) <= L_avail (the lane length plus any taper credit); it is
+short when it needs more; and it cannot reach merge speed when its crawl
+speed on the final grade is lower. The governing vehicle is the one needing
+the longest lane (a vehicle that cannot reach merge speed governs over any
+that can; among those, the one with the lowest speed at the end of the lane).
 """
 
 from __future__ import annotations
@@ -23,12 +26,16 @@ from dataclasses import dataclass
 from typing import Literal
 
 from .cautions import CAUTIONS
+from .gap_acceptance import MergeReliability, merge_reliability
+from .headways import HeadwayModel, headway_model
 from .policy import PolicyValue, initial_speed_for, load_policy, policy_minimum
 from .site import Site, SiteVehicle
 from .trajectory import Trajectory, accelerate
 from .units import show
 from .vehicles import DesignVehicle
 
+RELIABILITY_SEARCH = 3000.0
+"""How far beyond the taper the lane is imagined extended to find the length for the target reliability. [m]"""
 VehicleVerdict = Literal["meets", "short", "cannot-reach"]
 SiteVerdict = Literal["meets", "short"]
 _RANK: dict[VehicleVerdict, int] = {"meets": 0, "short": 1, "cannot-reach": 2}
@@ -77,6 +84,10 @@ class VehicleAssessment:
     large_differential: bool
     crawl_speed: float | None
     """Crawl speed on the final grade when below merge speed. [m/s]"""
+    merge: MergeReliability
+    """Gap acceptance in the adjacent lane along this vehicle's trajectory."""
+    length_needed: float | None
+    """The longer of the required length and the length for the target merge reliability; None if unbounded. [m]"""
     verdict: VehicleVerdict
 
 
@@ -102,6 +113,16 @@ class SiteAssessment:
         return summary_sentence(self, "si")
 
 
+def adjacent_headways(site: Site) -> HeadwayModel | None:
+    """Headway model of the adjacent lane; None for an empty lane."""
+    if site.adjacent_lane_flow <= 0:
+        return None
+    g = site.gaps
+    return headway_model(
+        g.headway_model, site.adjacent_lane_flow, min_headway=g.min_headway, free_fraction=g.free_fraction
+    )
+
+
 def assess_vehicle(site: Site, entry: SiteVehicle, initial_speed: float) -> VehicleAssessment:
     """Integrate one design vehicle along the site and read it against the lane."""
     trajectory = accelerate(
@@ -109,7 +130,7 @@ def assess_vehicle(site: Site, entry: SiteVehicle, initial_speed: float) -> Vehi
         site.profile,
         initial_speed,
         entry.merge_speed,
-        through=site.taper_end,
+        through=site.taper_end + RELIABILITY_SEARCH,
         elevation=site.elevation,
     )
     at_convergence, at_taper_start, at_taper_end = (
@@ -125,6 +146,30 @@ def assess_vehicle(site: Site, entry: SiteVehicle, initial_speed: float) -> Vehi
         deficit = max(0.0, required - available)
         verdict = "meets" if required <= available else "short"
     differential = site.operating_speed - at_taper_start
+    merge = merge_reliability(
+        trajectory.station,
+        trajectory.speed,
+        convergence=site.convergence,
+        lane_end=site.convergence + available,
+        taper_end=site.taper_end,
+        stream_speed=site.operating_speed,
+        merge_speed=entry.merge_speed,
+        minimum_merge_speed=site.gaps.minimum_merge_speed,
+        search_speed=site.gaps.search_speed,
+        headways=adjacent_headways(site),
+        critical_gap=entry.critical_gap,
+        stop_critical_gap=entry.stop_critical_gap,
+        reliability=site.gaps.reliability,
+        flow=entry.share * site.ramp_flow,
+        search_length=available + site.taper_length + RELIABILITY_SEARCH,
+    )
+    needed = None
+    if required is not None and merge.length_for_reliability is not None:
+        needed = max(required, merge.length_for_reliability)
+        deficit = max(0.0, needed - available)
+        verdict = "meets" if needed <= available else "short"
+    elif required is not None:
+        deficit, verdict = None, "short"
     return VehicleAssessment(
         vehicle=entry.vehicle,
         share=entry.share,
@@ -143,6 +188,8 @@ def assess_vehicle(site: Site, entry: SiteVehicle, initial_speed: float) -> Vehi
         speed_differential_at_lane_end=differential,
         large_differential=differential > site.flag_speed_differential,
         crawl_speed=trajectory.crawl_speed,
+        merge=merge,
+        length_needed=needed,
         verdict=verdict,
     )
 
@@ -150,10 +197,12 @@ def assess_vehicle(site: Site, entry: SiteVehicle, initial_speed: float) -> Vehi
 def governing_vehicle(results: tuple[VehicleAssessment, ...]) -> VehicleAssessment:
     """The vehicle needing the longest lane (see the module docstring)."""
 
-    def need(result: VehicleAssessment) -> tuple[int, float]:
+    def need(result: VehicleAssessment) -> tuple[int, float, float]:
         if result.required_length is None:
-            return (_RANK[result.verdict], -result.speed_at_taper_start)
-        return (_RANK[result.verdict], result.required_length)
+            return (_RANK[result.verdict], 1.0, -result.speed_at_taper_start)
+        if result.length_needed is None:
+            return (_RANK[result.verdict], 1.0, -result.merge.by_lane_end)
+        return (_RANK[result.verdict], 0.0, result.length_needed)
 
     return max(results, key=need)
 
@@ -236,6 +285,24 @@ def _assumptions(
             "threshold is a site criterion",
         ),
         Assumption(
+            "Adjacent-lane headways",
+            _headway_text(site),
+            "Cowan (1975), Transportation Research 9(6); Tanner (1962) for the free share"
+            if site.gaps.headway_model == "m3"
+            else "random arrivals (Adams 1936)",
+        ),
+        Assumption(
+            "Gap search",
+            f"merging allowed past the convergence point at {show(site.gaps.minimum_merge_speed, 'speed', 'si')} or more; "
+            f"gaps pass at least at {show(site.gaps.search_speed, 'speed', 'si')} relative speed; merge speed held once reached",
+            "moving-observer relation; the search speed is an explicit assumption (site criterion)",
+        ),
+        Assumption(
+            "Merge reliability target",
+            f"{site.gaps.reliability:.0%} of drivers merged by the end of the lane",
+            "site criterion (default 95 %)",
+        ),
+        Assumption(
             "Elevation at station 0",
             show(site.elevation, "length", "si"),
             "site file (0 m if not given); lowers air density and engine power",
@@ -248,12 +315,30 @@ def _assumptions(
     ]
     for r in results:
         v = r.vehicle
+        entry = next(e for e in site.vehicles if e.vehicle is v)
+        items.append(
+            Assumption(
+                f"{v.id}: critical gap",
+                f"at speed {entry.critical_gap.mean:.1f} s (sd {entry.critical_gap.sd:.1f} s); "
+                f"from a stop {entry.stop_critical_gap.mean:.1f} s (sd {entry.stop_critical_gap.sd:.1f} s), log-normal",
+                f"{entry.critical_gap.source}; from a stop: {entry.stop_critical_gap.source}",
+            )
+        )
         for parameter in v.parameters:
             items.append(Assumption(f"{v.id}: {parameter.name}", parameter.text, parameter.source))
     if policy is not None:
         items.append(Assumption("Policy table", policy.table.title, policy.table.source))
         items.append(Assumption("Policy interpolation", "see rule", policy.table.interpolation))
     return tuple(items)
+
+
+def _headway_text(site: Site) -> str:
+    g = site.gaps
+    flow = f"{site.adjacent_lane_flow * 3600:.0f} veh/h"
+    if g.headway_model == "exponential":
+        return f"negative exponential at {flow}"
+    free = "Tanner's 1 - Delta q" if g.free_fraction is None else f"{g.free_fraction:.2f}"
+    return f"Cowan M3 at {flow}, minimum headway {g.min_headway:.1f} s, free share {free}"
 
 
 def summary_sentence(assessment: SiteAssessment, system: Literal["si", "us"]) -> str:
@@ -263,8 +348,8 @@ def summary_sentence(assessment: SiteAssessment, system: Literal["si", "us"]) ->
     lane = show(site.available_length, "length", system)
     if assessment.verdict == "meets":
         return (
-            f"All design vehicles reach merge speed within the {lane} provided; {g.vehicle.id} governs, "
-            f"needing {show(g.required_length, 'length', system)}."
+            f"All design vehicles reach merge speed and find a gap within the {lane} provided; {g.vehicle.id} "
+            f"governs, needing {show(g.length_needed, 'length', system)}."
         )
     if g.verdict == "cannot-reach":
         return (
@@ -273,8 +358,23 @@ def summary_sentence(assessment: SiteAssessment, system: Literal["si", "us"]) ->
             f"{show(g.speed_at_taper_start, 'speed', system)}, {show(g.speed_differential_at_lane_end, 'speed', system)} "
             f"below the stream."
         )
+    merged = f"{g.merge.by_lane_end:.0%} of them find a gap by the end of the lane"
+    lane_end = site.convergence + site.available_length
+    if g.length_needed is None and (g.merge.eligible_station is None or g.merge.eligible_station > lane_end):
+        return (
+            f"{g.vehicle.id} is still below the minimum merge speed of {show(site.gaps.minimum_merge_speed, 'speed', system)} "
+            f"at the end of the {lane} lane (it leaves the lane at {show(g.speed_at_taper_start, 'speed', system)} and needs "
+            f"{show(g.required_length, 'length', system)} to reach its merge speed), so it can only force its way in."
+        )
+    if g.length_needed is None:
+        return (
+            f"{g.vehicle.id} reaches merge speed but rarely finds a gap: {merged}, short of the "
+            f"{g.merge.reliability:.0%} target even on a much longer lane."
+        )
     return (
         f"The lane is {show(g.deficit, 'length', system)} short for {g.vehicle.id}: it needs "
-        f"{show(g.required_length, 'length', system)} against {lane} provided, and leaves the lane at "
-        f"{show(g.speed_at_taper_start, 'speed', system)}."
+        f"{show(g.length_needed, 'length', system)} against {lane} provided "
+        f"({show(g.required_length, 'length', system)} to reach merge speed, "
+        f"{show(g.merge.length_for_reliability, 'length', system)} for a {g.merge.reliability:.0%} chance of a gap); "
+        f"{merged}."
     )

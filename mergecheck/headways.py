@@ -52,6 +52,10 @@ class HeadwayModel(Protocol):
         """Mean headway. [s]"""
         ...
 
+    def survival_integral(self, t: ArrayLike) -> FloatArray:
+        """Integral of the survival function from 0 to t. [s]"""
+        ...
+
     def sample(self, rng: np.random.Generator, size: int | tuple[int, ...]) -> FloatArray:
         """Random headways. [s]"""
         ...
@@ -86,6 +90,11 @@ class Exponential:
 
     def mean(self) -> float:
         return 1.0 / self.flow
+
+    def survival_integral(self, t: ArrayLike) -> FloatArray:
+        """(1 - e^{-q t}) / q."""
+        t = np.maximum(np.asarray(t, dtype=float), 0.0)
+        return np.asarray(-np.expm1(-self.flow * t) / self.flow, dtype=float)
 
     def sample(self, rng: np.random.Generator, size: int | tuple[int, ...]) -> FloatArray:
         return rng.exponential(1.0 / self.flow, size)
@@ -146,6 +155,12 @@ class CowanM3:
 
     def mean(self) -> float:
         return self.min_headway + self.free_fraction / self.decay
+
+    def survival_integral(self, t: ArrayLike) -> FloatArray:
+        """t below Delta; Delta + alpha (1 - e^{-lambda (t - Delta)}) / lambda above."""
+        t = np.maximum(np.asarray(t, dtype=float), 0.0)
+        beyond = -np.expm1(-self.decay * np.maximum(t - self.min_headway, 0.0)) * self.free_fraction / self.decay
+        return np.asarray(np.minimum(t, self.min_headway) + beyond, dtype=float)
 
     def sample(self, rng: np.random.Generator, size: int | tuple[int, ...]) -> FloatArray:
         free = rng.random(size) < self.free_fraction

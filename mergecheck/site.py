@@ -20,6 +20,7 @@ from typing import Literal
 from pydantic import BaseModel, ConfigDict, Field, ValidationError
 
 from .errors import InputError
+from .gap_acceptance import CriticalGap, default_critical_gaps
 from .inputs import GradePoint, build_profile, read_yaml
 from .profile import VerticalProfile
 from .units import parse_quantity
@@ -120,6 +121,43 @@ class CriteriaInput(_Strict):
     vehicles: dict[str, VehicleCriteriaInput] = Field(default_factory=dict, description="Per-vehicle criteria.")
 
 
+class CriticalGapInput(_Strict):
+    """Critical gap of one design vehicle across drivers (log-normal)."""
+
+    mean: str = Field(description="Mean critical gap when merging at speed, e.g. '3.2 s'.")
+    sd: str = Field(description="Standard deviation across drivers, e.g. '0.8 s'.")
+    from_stop_mean: str | None = Field(
+        default=None, description="Mean critical gap from a stop at the end of the lane."
+    )
+    from_stop_sd: str | None = Field(default=None, description="Its standard deviation.")
+
+
+class GapAcceptanceInput(_Strict):
+    """How the adjacent lane's gaps are modelled and accepted."""
+
+    headway_model: Literal["m3", "exponential"] = Field(
+        default="m3", description="Cowan's M3 (default) or negative-exponential headways in the adjacent lane."
+    )
+    min_headway: str = Field(default="1.0 s", description="M3 minimum headway Delta (default 1.0 s).")
+    free_fraction: float | None = Field(
+        default=None, gt=0.0, le=1.0, description="M3 share of free vehicles; default Tanner's 1 - Delta q."
+    )
+    reliability: float = Field(
+        default=0.95, gt=0.0, lt=1.0, description="Target probability of merging by the end of the lane (default 0.95)."
+    )
+    search_speed: str = Field(
+        default="8 km/h",
+        description="Least relative speed at which gaps pass a driver searching for one (default 8 km/h).",
+    )
+    minimum_merge_speed_differential: str = Field(
+        default="30 km/h",
+        description="Drivers may merge once within this of the stream's speed (default 30 km/h).",
+    )
+    critical_gaps: dict[str, CriticalGapInput] = Field(
+        default_factory=dict, description="Critical gaps by design vehicle (as listed under ramp.vehicles)."
+    )
+
+
 class SiteInput(_Strict):
     """An entrance terminal to check (the site file)."""
 
@@ -129,6 +167,7 @@ class SiteInput(_Strict):
     ramp: RampInput
     geometry: GeometryInput
     criteria: CriteriaInput = Field(default_factory=CriteriaInput)
+    gap_acceptance: GapAcceptanceInput = Field(default_factory=GapAcceptanceInput)
     policy: str | None = Field(
         default=None,
         description="Policy table file (path relative to this file), 'none', or omitted for the bundled table.",
@@ -137,13 +176,30 @@ class SiteInput(_Strict):
 
 @dataclass(frozen=True, slots=True)
 class SiteVehicle:
-    """A design vehicle at the site, with its share of the ramp flow and merge speed."""
+    """A design vehicle at the site, with its share of the ramp flow, merge speed and critical gaps."""
 
     vehicle: DesignVehicle
     share: float
     merge_speed: float
     """[m/s]"""
     merge_speed_differential: float
+    """[m/s]"""
+    critical_gap: CriticalGap
+    stop_critical_gap: CriticalGap
+
+
+@dataclass(frozen=True, slots=True)
+class GapSettings:
+    """Gap-acceptance settings of a site (SI)."""
+
+    headway_model: Literal["m3", "exponential"]
+    min_headway: float
+    """[s]"""
+    free_fraction: float | None
+    reliability: float
+    search_speed: float
+    """[m/s]"""
+    minimum_merge_speed: float
     """[m/s]"""
 
 
@@ -183,6 +239,7 @@ class Site:
     flag_speed_differential: float
     """[m/s]"""
     taper_credit: float
+    gaps: GapSettings
     policy_file: str | None
     """Path of the policy table, 'none', or None for the bundled one."""
 
@@ -288,7 +345,16 @@ def site_from_input(data: SiteInput, source: str) -> Site:
         start = initial if initial is not None else (controlling or 0.0)
         if merge <= start:
             raise InputError(source, where, "gives a merge speed at or below the speed leaving the controlling curve")
-        vehicles.append(SiteVehicle(vehicle, share, merge, differential))
+        at_speed, from_stop = _critical_gaps(data.gap_acceptance, ref, vehicle, source)
+        vehicles.append(SiteVehicle(vehicle, share, merge, differential, at_speed, from_stop))
+    unknown = sorted(set(data.gap_acceptance.critical_gaps) - set(shares))
+    if unknown:
+        raise InputError(
+            source,
+            f"gap_acceptance.critical_gaps.{unknown[0]}",
+            "critical gaps given for a vehicle not listed under ramp.vehicles",
+        )
+    gaps = _gap_settings(data.gap_acceptance, operating, adjacent, source)
 
     g = data.geometry
     lengths = {}
@@ -330,7 +396,67 @@ def site_from_input(data: SiteInput, source: str) -> Site:
         profile=profile,
         flag_speed_differential=flag,
         taper_credit=data.criteria.taper_credit,
+        gaps=gaps,
         policy_file=_policy_path(data.policy, base_dir),
+    )
+
+
+def _critical_gaps(
+    settings: GapAcceptanceInput, ref: str, vehicle: DesignVehicle, source: str
+) -> tuple[CriticalGap, CriticalGap]:
+    defaults = default_critical_gaps(vehicle.category)
+    given = settings.critical_gaps.get(ref)
+    if given is None:
+        return defaults.at_speed, defaults.from_stop
+    field = f"gap_acceptance.critical_gaps.{ref}"
+
+    def seconds(text: str | None, name: str, fallback: float) -> float:
+        if text is None:
+            return fallback
+        value = parse_quantity(text, "time", source=source, field=f"{field}.{name}")
+        if not 0 <= value <= 60:
+            raise InputError(source, f"{field}.{name}", "must lie between 0 and 60 s")
+        return value
+
+    mean = seconds(given.mean, "mean", 0.0)
+    sd = seconds(given.sd, "sd", 0.0)
+    if mean <= 0:
+        raise InputError(source, f"{field}.mean", "must be positive")
+    stop_mean = seconds(given.from_stop_mean, "from_stop_mean", defaults.from_stop.mean)
+    stop_sd = seconds(given.from_stop_sd, "from_stop_sd", defaults.from_stop.sd)
+    if stop_mean <= 0:
+        raise InputError(source, f"{field}.from_stop_mean", "must be positive")
+    return CriticalGap(mean, sd, "site file"), CriticalGap(
+        stop_mean, stop_sd, "site file" if given.from_stop_mean else defaults.from_stop.source
+    )
+
+
+def _gap_settings(settings: GapAcceptanceInput, operating: float, adjacent: float, source: str) -> GapSettings:
+    def q(text: str, kind: str, name: str) -> float:
+        return parse_quantity(text, kind, source=source, field=f"gap_acceptance.{name}")
+
+    min_headway = q(settings.min_headway, "time", "min_headway")
+    if not 0 <= min_headway * adjacent < 1 or min_headway > 5:
+        raise InputError(
+            source, "gap_acceptance.min_headway", "must be at least 0 s and below the mean headway of the adjacent lane"
+        )
+    search = q(settings.search_speed, "speed", "search_speed")
+    if not 0 < search <= 50 / 3.6:
+        raise InputError(source, "gap_acceptance.search_speed", "must be positive and at most 50 km/h")
+    differential = q(settings.minimum_merge_speed_differential, "speed", "minimum_merge_speed_differential")
+    if not 0 <= differential < operating:
+        raise InputError(
+            source,
+            "gap_acceptance.minimum_merge_speed_differential",
+            "must be at least 0 and below the operating speed",
+        )
+    return GapSettings(
+        headway_model=settings.headway_model,
+        min_headway=min_headway,
+        free_fraction=settings.free_fraction,
+        reliability=settings.reliability,
+        search_speed=search,
+        minimum_merge_speed=operating - differential,
     )
 
 

@@ -22,7 +22,9 @@ def test_example_level_site_meets(cli: Any, repo: Path) -> None:
     doc = run.json()
     assert doc["verdict"] == "meets" and doc["governing_vehicle"] == "passenger-car"
     car = next(v for v in doc["vehicles"] if v["id"] == "passenger-car")
-    assert car["required_length_m"] < car["available_length_m"] == 260.0
+    assert car["required_length_m"] < car["available_length_m"] == 300.0
+    assert car["merge_probability_by_lane_end"] >= doc["merge_reliability_target"] == 0.95
+    assert car["length_for_reliability_m"] <= car["available_length_m"]
     assert doc["policy"]["minimum_length_m"] > 0 and "from memory" in doc["policy"]["caution"]
     assert len(doc["cautions"]) >= 3 and all(a["source"] for a in doc["assumptions"])
 
@@ -49,8 +51,15 @@ def test_example_constrained_site_is_short_with_agency_table(cli: Any, repo: Pat
     assert "invented" in doc["policy"]["title"]
     # 100 km/h highway, 40 km/h ramp: the agency table's cell, flat grade (1.5 %)
     assert doc["policy"]["minimum_length_m"] == pytest.approx(340.0)
-    governing = next(v for v in doc["vehicles"] if v["id"] == doc["governing_vehicle"])
-    assert governing["deficit_m"] == pytest.approx(governing["required_length_m"] - 150.0 - 0.5 * 75.0, abs=1e-3)
+    car = next(v for v in doc["vehicles"] if v["id"] == "passenger-car")
+    assert car["available_length_m"] == pytest.approx(150.0 + 0.5 * 75.0)  # half the taper credited
+    assert car["deficit_m"] == pytest.approx(car["length_needed_m"] - car["available_length_m"], abs=1e-3)
+    assert car["length_needed_m"] == pytest.approx(
+        max(car["required_length_m"], car["length_for_reliability_m"]), abs=1e-3
+    )
+    # the single-unit truck is still too slow to merge at the end of the lane
+    truck = next(v for v in doc["vehicles"] if v["id"] == "single-unit-truck")
+    assert truck["merge_probability_by_lane_end"] == 0.0 and truck["stops_per_h"] > 0
 
 
 def test_issue_minimal_form(cli: Any, repo: Path) -> None:

@@ -5,8 +5,9 @@ from __future__ import annotations
 import json
 from typing import Any
 
-from ..assessment import SiteAssessment
+from ..assessment import SiteAssessment, VehicleAssessment
 from ..figures import VehicleFigures
+from ..gap_acceptance import CriticalGap
 from ..results import AccelerationRun
 
 
@@ -58,6 +59,10 @@ def vehicles_json(figures: list[VehicleFigures]) -> list[dict[str, Any]]:
     ]
 
 
+def _gap(assessment: SiteAssessment, result: VehicleAssessment) -> CriticalGap:
+    return next(e.critical_gap for e in assessment.site.vehicles if e.vehicle is result.vehicle)
+
+
 def dumps(document: Any) -> str:
     return json.dumps(document, indent=2, ensure_ascii=False) + "\n"
 
@@ -89,6 +94,7 @@ def site_json(assessment: SiteAssessment) -> dict[str, Any]:
             "elevation_m": _number(site.elevation, 3),
         },
         "initial_speed_m_s": _number(assessment.initial_speed),
+        "merge_reliability_target": site.gaps.reliability,
         "vehicles": [
             {
                 "id": v.vehicle.id,
@@ -107,8 +113,17 @@ def site_json(assessment: SiteAssessment) -> dict[str, Any]:
                 "speed_differential_at_lane_end_m_s": _number(v.speed_differential_at_lane_end),
                 "large_speed_differential": v.large_differential,
                 "crawl_speed_m_s": _number(v.crawl_speed),
+                "merge_eligible_station_m": _number(v.merge.eligible_station, 3),
+                "merge_probability_by_lane_end": _number(v.merge.by_lane_end),
+                "merge_probability_by_taper_end": _number(v.merge.by_taper_end),
+                "length_for_reliability_m": _number(v.merge.length_for_reliability, 3),
+                "length_needed_m": _number(v.length_needed, 3),
+                "forced_merges_per_h": _number(v.merge.forced_merges_per_h, 3),
+                "stops_per_h": _number(v.merge.stops_per_h, 3),
+                "mean_stopped_wait_s": _number(v.merge.mean_stopped_wait, 3),
+                "critical_gap_s": {"mean": v_gap.mean, "sd": v_gap.sd},
             }
-            for v in assessment.vehicles
+            for v, v_gap in ((v, _gap(assessment, v)) for v in assessment.vehicles)
         ],
         "policy": None
         if policy is None

@@ -153,10 +153,10 @@ def site_view(assessment: SiteAssessment, system: UnitSystem) -> RenderableType:
         )
 
     policy = assessment.policy
-    lengths = Table(title="Acceleration length (convergence point to merge speed)", title_justify="left")
+    lengths = Table(title="Acceleration length (from the convergence point)", title_justify="left")
     lengths.add_column("Vehicle", no_wrap=True)
     lengths.add_column("Share", justify="right")
-    for heading in ("Required", "Available", "Deficit"):
+    for heading in ("To merge speed", f"For {site.gaps.reliability:.0%} gaps", "Available", "Deficit"):
         lengths.add_column(f"{heading} ({unit_l})", justify="right")
     lengths.add_column("Verdict")
     for v in assessment.vehicles:
@@ -166,6 +166,7 @@ def site_view(assessment: SiteAssessment, system: UnitSystem) -> RenderableType:
             v.vehicle.id,
             f"{v.share:.0%}",
             required,
+            "-" if v.merge.length_for_reliability is None else _num(v.merge.length_for_reliability, "length", system),
             _num(v.available_length, "length", system),
             deficit,
             Text(v.verdict, style=_VERDICT_STYLE[v.verdict]),
@@ -175,7 +176,30 @@ def site_view(assessment: SiteAssessment, system: UnitSystem) -> RenderableType:
         basis = policy.note
         if policy.merge_speed is not None:
             basis += f"; assumes merge at {show(policy.merge_speed, 'speed', system)}"
-        lengths.add_row("policy minimum", "", value, _num(site.available_length, "length", system), "", basis)
+        lengths.add_row("policy minimum", "", value, "", _num(site.available_length, "length", system), "", "")
+
+    merging = Table(
+        title=f"Merging into the adjacent lane ({site.adjacent_lane_flow * 3600:.0f} veh/h)", title_justify="left"
+    )
+    merging.add_column("Vehicle", no_wrap=True)
+    for heading in (
+        "Merged by lane end",
+        "By taper end",
+        "Forced in taper (veh/h)",
+        "Stops (veh/h)",
+        "Stopped wait (s)",
+    ):
+        merging.add_column(heading, justify="right")
+    for v in assessment.vehicles:
+        m = v.merge
+        merging.add_row(
+            v.vehicle.id,
+            f"{m.by_lane_end:.1%}",
+            f"{m.by_taper_end:.1%}",
+            f"{m.forced_merges_per_h:.1f}",
+            f"{m.stops_per_h:.1f}",
+            f"{m.mean_stopped_wait:.0f}",
+        )
 
     parts: list[RenderableType] = [
         verdict,
@@ -185,8 +209,10 @@ def site_view(assessment: SiteAssessment, system: UnitSystem) -> RenderableType:
         Text(""),
         speeds,
         lengths,
+        merging,
     ]
     if policy is not None:
+        parts.append(Text(f"Policy minimum: {basis}.", style="bold"))
         parts.append(
             Text(
                 f"Policy: {policy.table.title}. {policy.table.source} Length measured: {policy.table.length_definition}",

@@ -1,0 +1,324 @@
+"""Merge reliability: the probability of finding an acceptable gap along the lane.
+
+A merging driver beside the adjacent through lane accepts the first gap (time
+headway of the stream) not shorter than their critical gap t_c, which varies
+across drivers (log-normal). Gaps pass a merging vehicle at the rate the
+stream overtakes it (moving-observer relation): with density k = q / v_m, the
+number of stream vehicles passing per unit of the merging vehicle's travel is
+k |v_m - v_r| / v_r. Measured in stream time (the headway time that has
+passed the merging vehicle),
+
+.. math:: \\tau(x) = \\int_{x_a}^{x} \\frac{\\max(|v_m - v_r(x')|,\\, \\Delta v_s)}{v_m\\, v_r(x')} dx'      (1)
+
+from the station x_a where the vehicle may first merge (past the convergence
+point and within the minimum-merge-speed differential of the stream). The
+search speed Delta v_s is an explicit assumption: a driver matched to the
+stream's speed adjusts speed to search, so that gaps keep passing at least at
+that relative speed. Once at merge speed, the driver holds it.
+
+Given t_c, merging is a renewal process in tau. The driver starts beside a
+gap drawn length-biased (inspection paradox), at a uniform position in it: it
+is accepted at once if its whole length is at least t_c; otherwise the rest
+of it, r, passes (density w(r) = (S(r) - S(t_c)) / mu for r < t_c, S the
+headway survival function, mu the mean headway) and each later gap is
+accepted or passes in full. With U(tau) the probability of not having merged
+within tau after entering a fresh gap,
+
+.. math::
+
+    U(\\tau) = \\int_0^{t_c} f(h) \\left[1\\{h > \\tau\\} + 1\\{h \\le \\tau\\} U(\\tau - h)\\right] dh        (2)
+
+    P_{not}(\\tau) = \\int_\\tau^{t_c} w(r)\\, dr + \\int_0^{\\min(\\tau, t_c)} w(r)\\, U(\\tau - r)\\, dr   (3)
+
+and the probability of having merged by station x is
+1 - E_{t_c}[P_not(tau(x))], the expectation taken by Gauss-Hermite
+quadrature over the log-normal. Eq. (2) is solved on a grid in tau (the
+headway distribution as a probability mass per cell), Eq. (3) by
+convolution. :func:`simulate_merges` checks both by Monte Carlo.
+
+References
+----------
+Drew, D. R. (1968). Traffic Flow Theory and Control, McGraw-Hill, ch. 9 (gap
+acceptance and merging; from memory). Cowan (1975) and Tanner (1962): see
+:mod:`mergecheck.headways`.
+"""
+
+from __future__ import annotations
+
+import importlib.resources
+import math
+from dataclasses import dataclass
+
+import numpy as np
+import yaml
+from numpy.typing import NDArray
+
+from .headways import HeadwayModel, mean_wait
+
+FloatArray = NDArray[np.float64]
+_NODES = 24  # Gauss-Hermite nodes over the log-normal critical gap
+
+
+@dataclass(frozen=True, slots=True)
+class CriticalGap:
+    """Critical gap across drivers: log-normal with this mean and standard deviation. [s]"""
+
+    mean: float
+    sd: float
+    source: str = ""
+
+    def __post_init__(self) -> None:
+        if not (self.mean > 0 and self.sd >= 0):
+            raise ValueError("critical gap mean must be positive and its standard deviation not negative")
+
+    @property
+    def log_parameters(self) -> tuple[float, float]:
+        """(mu, sigma) of ln t_c: sigma^2 = ln(1 + (sd/mean)^2), mu = ln(mean) - sigma^2/2."""
+        sigma2 = math.log1p((self.sd / self.mean) ** 2)
+        return math.log(self.mean) - sigma2 / 2, math.sqrt(sigma2)
+
+    def nodes(self, count: int = _NODES) -> tuple[FloatArray, FloatArray]:
+        """Quadrature nodes and weights over the distribution (Gauss-Hermite in ln t_c)."""
+        mu, sigma = self.log_parameters
+        if sigma == 0:
+            return np.array([self.mean]), np.array([1.0])
+        x, w = np.polynomial.hermite_e.hermegauss(count)
+        return np.exp(mu + sigma * x), w / w.sum()
+
+    def sample(self, rng: np.random.Generator, size: int) -> FloatArray:
+        mu, sigma = self.log_parameters
+        return rng.lognormal(mu, sigma, size)
+
+
+@dataclass(frozen=True, slots=True)
+class CriticalGapDefaults:
+    at_speed: CriticalGap
+    from_stop: CriticalGap
+
+
+def default_critical_gaps(category: str) -> CriticalGapDefaults:
+    """Default critical gaps for a design-vehicle category (``mergecheck/data/critical-gaps.yaml``)."""
+    text = (importlib.resources.files("mergecheck.data") / "critical-gaps.yaml").read_text(encoding="utf-8")
+    data = yaml.safe_load(text)
+
+    def gap(entry: dict[str, str]) -> CriticalGap:
+        return CriticalGap(float(entry["mean"].split()[0]), float(entry["sd"].split()[0]), entry["source"])
+
+    return CriticalGapDefaults(gap(data["at_speed"][category]), gap(data["from_stop"][category]))
+
+
+def stream_time(
+    station: FloatArray,
+    speed: FloatArray,
+    stream_speed: float,
+    search_speed: float,
+    eligible_from: float,
+    hold_speed: float,
+) -> FloatArray:
+    """tau(x) of Eq. (1) at each station; 0 before the eligible station. [s]
+
+    Parameters
+    ----------
+    station, speed
+        The merging vehicle's trajectory. [m], [m/s]
+    stream_speed
+        v_m. [m/s]
+    search_speed
+        Delta v_s, the least relative speed at which gaps pass. [m/s]
+    eligible_from
+        x_a, where merging may begin. [m]
+    hold_speed
+        The driver holds this speed once reached (the merge speed). [m/s]
+    """
+    v = np.minimum(np.maximum(speed, 0.1), hold_speed)
+    rate = np.maximum(np.abs(stream_speed - v), search_speed) / (stream_speed * v)
+    rate = np.where(station >= eligible_from, rate, 0.0)
+    tau = np.concatenate([[0.0], np.cumsum(0.5 * (rate[1:] + rate[:-1]) * np.diff(station))])
+    # the first segment that crosses x_a counts only its part past x_a
+    first = np.searchsorted(station, eligible_from)
+    if 0 < first < station.size:
+        partial = (station[first] - eligible_from) * rate[first]
+        tau = np.where(station >= eligible_from, tau - tau[first] + partial, 0.0)
+    return tau
+
+
+def not_merged(
+    headways: HeadwayModel, critical_gap: CriticalGap, tau: FloatArray, step: float | None = None
+) -> FloatArray:
+    """Probability of not having merged after stream time tau, Eqs. (2)-(3). [-]
+
+    Parameters
+    ----------
+    headways
+        Headway model of the adjacent lane.
+    critical_gap
+        Distribution of t_c across drivers.
+    tau
+        Stream times at which to evaluate (any order, not negative). [s]
+    step
+        Grid step in tau; default min(0.05 s, mean headway / 40). [s]
+    """
+    tau = np.asarray(tau, dtype=float)
+    gaps, weights = critical_gap.nodes()
+    mu = headways.mean()
+    dt = step or min(0.05, mu / 40.0)
+    n = int(math.ceil(max(float(tau.max(initial=0.0)), dt) / dt)) + 1
+    j_max = int(math.ceil(float(gaps.max()) / dt)) + 1
+    # cell j holds headways in [(j - 1/2) dt, (j + 1/2) dt), placed at j dt
+    lower = np.maximum((np.arange(j_max + 1) - 0.5) * dt, 0.0)
+    upper = (np.arange(j_max + 1) + 0.5) * dt
+    clipped = np.minimum(upper[None, :], gaps[:, None])  # (K, J): cell cut at t_c
+    inside = lower[None, :] < gaps[:, None]
+    s_lower = headways.survival(lower)[None, :]
+    s_gap = headways.survival(gaps)[:, None]
+    # mass of gaps shorter than t_c in each cell (exact: a survival difference)
+    rejected = np.where(inside, s_lower - headways.survival(clipped), 0.0)
+    tail = np.cumsum(rejected[:, ::-1], axis=1)[:, ::-1]  # sum over cells >= index
+    u = np.zeros((gaps.size, n))
+    for i in range(n):  # Eq. (2), explicit in i except the cell j = 0
+        window = min(i, j_max)
+        earlier = u[:, i - np.arange(1, window + 1)]  # U(tau - h) for h in cells 1..window
+        convolution = np.einsum("kj,kj->k", rejected[:, 1 : window + 1], earlier)
+        beyond = tail[:, i + 1] if i + 1 <= j_max else 0.0
+        u[:, i] = (beyond + convolution) / (1.0 - rejected[:, 0])
+    # Eq. (3): residual r of the length-biased first gap, density (S(r) - S(t_c)) / mu for r < t_c.
+    # Cell i covers r in [i dt, (i + 1) dt), integrated exactly and counted as passed at the
+    # end of the cell, (i + 1) dt: exact at tau = 0, at most one cell late after.
+    start = np.arange(j_max + 1) * dt
+    end = np.maximum(np.minimum(start[None, :] + dt, gaps[:, None]), start[None, :])
+    area = headways.survival_integral(end) - headways.survival_integral(start)[None, :]
+    w = np.clip(area - s_gap * (end - start[None, :]), 0.0, None) / mu
+    w = np.concatenate([np.zeros((gaps.size, 1)), w], axis=1)  # placed at index i + 1
+    w_tail = np.cumsum(w[:, ::-1], axis=1)[:, ::-1]
+    p_not = np.empty((gaps.size, n))
+    beyond_first = np.zeros((gaps.size, n))  # residual still passing at tau: sum of w placed beyond i
+    m = min(n, j_max + 1)
+    beyond_first[:, :m] = w_tail[:, 1 : m + 1]
+    for k in range(gaps.size):
+        p_not[k] = np.convolve(w[k], u[k])[:n] + beyond_first[k]
+    mixed = weights @ p_not
+    return np.asarray(np.interp(tau, np.arange(n) * dt, mixed), dtype=float)
+
+
+def simulate_merges(
+    headways: HeadwayModel, critical_gap: CriticalGap, count: int, tau_limit: float, rng: np.random.Generator
+) -> FloatArray:
+    """Monte Carlo: stream time at which each of ``count`` drivers merges (inf if after tau_limit). [s]
+
+    Each driver draws t_c; the stream is simulated as sampled headways; the
+    driver starts beside a length-biased gap at a uniform position in it
+    (drawn by resampling a large pool of headways in proportion to length)
+    and merges at the first gap not shorter than t_c. Vectorised over drivers.
+    """
+    tc = critical_gap.sample(rng, count)
+    pool = headways.sample(rng, 20 * count)
+    first = rng.choice(pool, size=count, p=pool / pool.sum())
+    merged_at = np.where(first >= tc, 0.0, np.inf)
+    clock = np.where(first >= tc, 0.0, rng.random(count) * first)  # rest of the first gap passes
+    active = np.flatnonzero(~np.isfinite(merged_at))
+    while active.size:
+        h = headways.sample(rng, active.size)
+        accept = h >= tc[active]
+        merged_at[active[accept]] = clock[active[accept]]
+        clock[active] += h
+        keep = ~accept & (clock[active] <= tau_limit)
+        active = active[keep]
+    return np.where(merged_at <= tau_limit, merged_at, np.inf)
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class MergeReliability:
+    """How likely one design vehicle is to complete its merge, and what happens to those who do not."""
+
+    station: FloatArray
+    """Stations along the path. [m]"""
+    probability: FloatArray
+    """Probability of having merged by each station. [-]"""
+    eligible_station: float | None
+    """Where merging may begin; None if the vehicle never gets within the minimum merge speed. [m]"""
+    by_lane_end: float
+    by_taper_end: float
+    reliability: float
+    """Target probability of merging by the end of the lane. [-]"""
+    length_for_reliability: float | None
+    """Lane length (from the convergence point) giving the target probability; None beyond the search range. [m]"""
+    forced_merges_per_h: float
+    """Vehicles of this class merging in the taper. [veh/h]"""
+    stops_per_h: float
+    """Vehicles of this class reaching the end of the taper without merging. [veh/h]"""
+    mean_stopped_wait: float
+    """Mean wait of a stopped vehicle for a gap (from-stop critical gap). [s]"""
+
+
+def merge_reliability(
+    station: FloatArray,
+    speed: FloatArray,
+    *,
+    convergence: float,
+    lane_end: float,
+    taper_end: float,
+    stream_speed: float,
+    merge_speed: float,
+    minimum_merge_speed: float,
+    search_speed: float,
+    headways: HeadwayModel | None,
+    critical_gap: CriticalGap,
+    stop_critical_gap: CriticalGap,
+    reliability: float,
+    flow: float,
+    search_length: float = 3000.0,
+) -> MergeReliability:
+    """Merge probability along the lane for one design vehicle (module docstring, Eqs. 1-3).
+
+    The trajectory is extended beyond its last sample at its last speed (the
+    vehicle has then settled at its crawl speed or holds its merge speed), up
+    to ``search_length`` past the convergence point, to find the lane length
+    that gives the target reliability. ``headways`` None means an empty
+    adjacent lane: every vehicle merges where it becomes eligible.
+    """
+    far = convergence + search_length
+    if station[-1] < far:
+        station = np.append(station, far)
+        speed = np.append(speed, speed[-1])
+    eligible = (station >= convergence) & (speed >= minimum_merge_speed)
+    x_a = float(station[np.argmax(eligible)]) if eligible.any() else None
+    if x_a is None:
+        probability = np.zeros_like(station)
+    else:
+        tau = stream_time(station, speed, stream_speed, search_speed, x_a, merge_speed)
+        if headways is None:
+            merged = np.ones_like(station)
+        else:
+            merged = 1.0 - not_merged(headways, critical_gap, tau)
+        probability = np.where(station >= x_a, merged, 0.0)
+    probability = np.maximum.accumulate(np.clip(probability, 0.0, 1.0))
+
+    def at(x: float) -> float:
+        return float(np.interp(x, station, probability))
+
+    by_lane_end, by_taper_end = at(lane_end), at(taper_end)
+    reached = np.flatnonzero(probability >= reliability)
+    length = None
+    if reached.size:
+        i = int(reached[0])
+        x = float(station[i])
+        if i > 0 and probability[i] > probability[i - 1]:
+            x = float(np.interp(reliability, probability[i - 1 : i + 1], station[i - 1 : i + 1]))
+        length = max(0.0, x - convergence)
+    if headways is None:
+        wait = 0.0
+    else:
+        gaps, weights = stop_critical_gap.nodes()
+        wait = float(sum(wt * mean_wait(headways, float(g)) for g, wt in zip(gaps, weights, strict=True)))
+    return MergeReliability(
+        station=station,
+        probability=probability,
+        eligible_station=x_a,
+        by_lane_end=by_lane_end,
+        by_taper_end=by_taper_end,
+        reliability=reliability,
+        length_for_reliability=length,
+        forced_merges_per_h=flow * 3600 * max(0.0, by_taper_end - by_lane_end),
+        stops_per_h=flow * 3600 * (1.0 - by_taper_end),
+        mean_stopped_wait=wait,
+    )
