@@ -162,8 +162,8 @@ def not_merged(
     gaps, weights = critical_gap.nodes()
     mu = headways.mean()
     dt = step or min(0.05, mu / 40.0)
-    n = int(math.ceil(max(float(tau.max(initial=0.0)), dt) / dt)) + 1
-    j_max = int(math.ceil(float(gaps.max()) / dt)) + 1
+    n = math.ceil(max(float(tau.max(initial=0.0)), dt) / dt) + 1
+    j_max = math.ceil(float(gaps.max()) / dt) + 1
     # cell j holds headways in [(j - 1/2) dt, (j + 1/2) dt), placed at j dt
     lower = np.maximum((np.arange(j_max + 1) - 0.5) * dt, 0.0)
     upper = (np.arange(j_max + 1) + 0.5) * dt

@@ -41,8 +41,10 @@ FloatArray = NDArray[np.float64]
 class HeadwayModel(Protocol):
     """What the gap-acceptance code needs from a headway distribution."""
 
-    flow: float
-    """[veh/s]"""
+    @property
+    def flow(self) -> float:
+        """Flow q. [veh/s]"""
+        ...
 
     def survival(self, t: ArrayLike) -> FloatArray:
         """P(h > t) for headways t. [-]"""
@@ -85,16 +87,16 @@ class Exponential:
             raise ValueError("flow must be positive")
 
     def survival(self, t: ArrayLike) -> FloatArray:
-        t = np.asarray(t, dtype=float)
-        return np.asarray(np.where(t < 0, 1.0, np.exp(-self.flow * np.maximum(t, 0.0))), dtype=float)
+        x = np.asarray(t, dtype=np.float64)
+        return np.asarray(np.where(x < 0, 1.0, np.exp(-self.flow * np.maximum(x, 0.0))), dtype=np.float64)
 
     def mean(self) -> float:
         return 1.0 / self.flow
 
     def survival_integral(self, t: ArrayLike) -> FloatArray:
         """(1 - e^{-q t}) / q."""
-        t = np.maximum(np.asarray(t, dtype=float), 0.0)
-        return np.asarray(-np.expm1(-self.flow * t) / self.flow, dtype=float)
+        x = np.maximum(np.asarray(t, dtype=np.float64), 0.0)
+        return np.asarray(-np.expm1(-self.flow * x) / self.flow, dtype=np.float64)
 
     def sample(self, rng: np.random.Generator, size: int | tuple[int, ...]) -> FloatArray:
         return rng.exponential(1.0 / self.flow, size)
@@ -149,18 +151,18 @@ class CowanM3:
         return self.free_fraction * self.flow / (1.0 - self.min_headway * self.flow)
 
     def survival(self, t: ArrayLike) -> FloatArray:
-        t = np.asarray(t, dtype=float)
-        tail = self.free_fraction * np.exp(-self.decay * np.maximum(t - self.min_headway, 0.0))
-        return np.asarray(np.where(t < self.min_headway, 1.0, tail), dtype=float)  # Eq. (1)
+        x = np.asarray(t, dtype=np.float64)
+        tail = self.free_fraction * np.exp(-self.decay * np.maximum(x - self.min_headway, 0.0))
+        return np.asarray(np.where(x < self.min_headway, 1.0, tail), dtype=np.float64)  # Eq. (1)
 
     def mean(self) -> float:
         return self.min_headway + self.free_fraction / self.decay
 
     def survival_integral(self, t: ArrayLike) -> FloatArray:
         """t below Delta; Delta + alpha (1 - e^{-lambda (t - Delta)}) / lambda above."""
-        t = np.maximum(np.asarray(t, dtype=float), 0.0)
-        beyond = -np.expm1(-self.decay * np.maximum(t - self.min_headway, 0.0)) * self.free_fraction / self.decay
-        return np.asarray(np.minimum(t, self.min_headway) + beyond, dtype=float)
+        x = np.maximum(np.asarray(t, dtype=np.float64), 0.0)
+        beyond = -np.expm1(-self.decay * np.maximum(x - self.min_headway, 0.0)) * self.free_fraction / self.decay
+        return np.asarray(np.minimum(x, self.min_headway) + beyond, dtype=np.float64)
 
     def sample(self, rng: np.random.Generator, size: int | tuple[int, ...]) -> FloatArray:
         free = rng.random(size) < self.free_fraction
@@ -246,4 +248,4 @@ def mean_wait(model: HeadwayModel, critical_gap: float) -> float:
     lag_short, _ = quad(lambda r: s(r) / mu, 0.0, critical_gap, points=points, limit=200)
     area, _ = quad(s, 0.0, critical_gap, points=points, limit=200)
     short_mean_times_share = area - critical_gap * p  # E[h; h < T]
-    return lag_wait + lag_short * short_mean_times_share / p
+    return float(lag_wait + lag_short * short_mean_times_share / p)

@@ -146,8 +146,11 @@ class GapAcceptanceInput(_Strict):
         default=0.95, gt=0.0, lt=1.0, description="Target probability of merging by the end of the lane (default 0.95)."
     )
     search_speed: str = Field(
-        default="8 km/h",
-        description="Least relative speed at which gaps pass a driver searching for one (default 8 km/h).",
+        default="15 km/h",
+        description=(
+            "Least relative speed at which gaps pass a driver searching for one: a driver matched to the stream"
+            " slows or speeds up to find a gap (default 15 km/h, an assumption)."
+        ),
     )
     minimum_merge_speed_differential: str = Field(
         default="30 km/h",

@@ -53,10 +53,8 @@ def test_example_constrained_site_is_short_with_agency_table(cli: Any, repo: Pat
     assert doc["policy"]["minimum_length_m"] == pytest.approx(340.0)
     car = next(v for v in doc["vehicles"] if v["id"] == "passenger-car")
     assert car["available_length_m"] == pytest.approx(150.0 + 0.5 * 75.0)  # half the taper credited
-    assert car["deficit_m"] == pytest.approx(car["length_needed_m"] - car["available_length_m"], abs=1e-3)
-    assert car["length_needed_m"] == pytest.approx(
-        max(car["required_length_m"], car["length_for_reliability_m"]), abs=1e-3
-    )
+    assert car["verdict"] == "short" and car["required_length_m"] > car["available_length_m"]
+    assert car["merge_probability_by_lane_end"] < 0.95
     # the single-unit truck is still too slow to merge at the end of the lane
     truck = next(v for v in doc["vehicles"] if v["id"] == "single-unit-truck")
     assert truck["merge_probability_by_lane_end"] == 0.0 and truck["stops_per_h"] > 0
