@@ -17,12 +17,14 @@ from pydantic import ValidationError
 from rich.console import Console
 
 from .assessment import assess
+from .critical_gap_estimation import ESTIMATORS, read_observations
 from .errors import InputError
 from .figures import vehicle_figures
-from .inputs import ProfileFile, build_profile, read_yaml
+from .headways import HEADWAY_MODELS, headway_model, mean_wait
+from .inputs import MAX_GRADE, ProfileFile, build_profile, read_yaml
 from .profile import VerticalProfile
 from .report import json_report, markdown, terminal
-from .results import AccelerationRun
+from .results import AccelerationRun, GapFigures
 from .site import SiteInput, load_site
 from .trajectory import accelerate
 from .units import parse_quantity
@@ -65,6 +67,19 @@ def build_parser() -> argparse.ArgumentParser:
     check.add_argument("--markdown", metavar="FILE", help="write the report as Markdown to FILE")
 
     commands.add_parser("schema", help="print the JSON Schema of the site file")
+
+    gaps = commands.add_parser("gaps", help="probability, rate and wait for gaps of a given length in one lane")
+    gaps.add_argument("--flow", required=True, help="flow in the lane, e.g. '1400 veh/h'")
+    gaps.add_argument("--critical-gap", required=True, help="critical gap, e.g. '3.5 s'")
+    gaps.add_argument("--model", choices=sorted(HEADWAY_MODELS), default="exponential", help="headway model")
+    gaps.add_argument("--min-headway", default="1.0 s", help="M3 minimum headway (default 1.0 s)")
+    gaps.add_argument("--free-fraction", type=float, help="M3 share of free vehicles (default Tanner's 1 - Delta q)")
+    gaps.add_argument("--json", action="store_true", help="write JSON to standard output")
+
+    estimate = commands.add_parser("critical-gap", help="estimate critical gaps from field observations (CSV)")
+    estimate.add_argument("observations", help="CSV with accepted_gap_s and largest_rejected_gap_s per driver")
+    estimate.add_argument("--method", choices=sorted(ESTIMATORS), default="mle", help="estimator (default mle)")
+    estimate.add_argument("--json", action="store_true", help="write JSON to standard output")
     return parser
 
 
@@ -80,6 +95,10 @@ def main(argv: Sequence[str] | None = None) -> int:
                 return _accel(args, stdout)
             case "check":
                 return _check(args, stdout)
+            case "gaps":
+                return _gaps(args, stdout)
+            case "critical-gap":
+                return _critical_gap(args, stdout)
             case "schema":
                 sys.stdout.write(json_report.dumps(site_schema()))
                 return EXIT_OK
@@ -147,6 +166,49 @@ def _check(args: argparse.Namespace, out: Console) -> int:
     return EXIT_OK if assessment.verdict == "meets" else EXIT_SHORT
 
 
+def _gaps(args: argparse.Namespace, out: Console) -> int:
+    flow = parse_quantity(args.flow, "flow", source="command line", field="--flow")
+    gap = parse_quantity(args.critical_gap, "time", source="command line", field="--critical-gap")
+    if not 0 < flow <= 3000 / 3600:
+        raise InputError("command line", "--flow", "must be positive and at most 3000 veh/h")
+    if not 0 < gap <= 60:
+        raise InputError("command line", "--critical-gap", "must be positive and at most 60 s")
+    min_headway = None
+    if args.model == "m3":
+        min_headway = parse_quantity(args.min_headway, "time", source="command line", field="--min-headway")
+        if not 0 <= min_headway * flow < 1:
+            raise InputError("command line", "--min-headway", "must be at least 0 s and below the mean headway 1/q")
+        if args.free_fraction is not None and not 0 < args.free_fraction <= 1:
+            raise InputError("command line", "--free-fraction", "must lie in (0, 1]")
+    model = headway_model(args.model, flow, min_headway=min_headway or 0.0, free_fraction=args.free_fraction)
+    p = float(model.survival(gap))
+    figures = GapFigures(
+        model=args.model,
+        flow=flow,
+        critical_gap=gap,
+        min_headway=min_headway,
+        free_fraction=getattr(model, "free_fraction", None),
+        p_headway_at_least=p,
+        acceptable_gaps_per_h=flow * p * 3600,
+        mean_wait=mean_wait(model, gap),
+    )
+    if args.json:
+        sys.stdout.write(json_report.dumps(json_report.gaps_json(figures)))
+    else:
+        out.print(terminal.gaps_view(figures))
+    return EXIT_OK
+
+
+def _critical_gap(args: argparse.Namespace, out: Console) -> int:
+    observations = read_observations(args.observations)
+    estimate = ESTIMATORS[args.method](observations)
+    if args.json:
+        sys.stdout.write(json_report.dumps(json_report.critical_gap_json(estimate, args.observations)))
+    else:
+        out.print(terminal.critical_gap_view(estimate, args.observations))
+    return EXIT_OK
+
+
 def site_schema() -> dict[str, object]:
     """JSON Schema of the site file (field names as written in YAML)."""
     schema = SiteInput.model_json_schema(by_alias=True)
@@ -156,8 +218,6 @@ def site_schema() -> dict[str, object]:
 
 
 def build_profile_from_grade(text: str) -> VerticalProfile:
-    from .inputs import MAX_GRADE
-
     grade = parse_quantity(text, "grade", source="command line", field="--grade")
     if abs(grade) > MAX_GRADE:
         raise InputError("command line", "--grade", f"{text} is steeper than the {MAX_GRADE:.0%} any standard allows")

@@ -6,9 +6,10 @@ import json
 from typing import Any
 
 from ..assessment import SiteAssessment, VehicleAssessment
+from ..critical_gap_estimation import CriticalGapEstimate
 from ..figures import VehicleFigures
 from ..gap_acceptance import CriticalGap
-from ..results import AccelerationRun
+from ..results import AccelerationRun, GapFigures
 
 
 def _number(value: float | None, digits: int = 6) -> float | None:
@@ -142,4 +143,35 @@ def site_json(assessment: SiteAssessment) -> dict[str, Any]:
         },
         "assumptions": [{"name": a.name, "value": a.value, "source": a.source} for a in assessment.assumptions],
         "cautions": list(assessment.cautions),
+    }
+
+
+def gaps_json(figures: GapFigures) -> dict[str, Any]:
+    """The ``gaps --json`` document."""
+    return {
+        "model": figures.model,
+        "flow_veh_h": _number(figures.flow * 3600, 3),
+        "critical_gap_s": figures.critical_gap,
+        "min_headway_s": figures.min_headway,
+        "free_fraction": _number(figures.free_fraction),
+        "p_headway_at_least": _number(figures.p_headway_at_least, 8),
+        "acceptable_gaps_per_h": _number(figures.acceptable_gaps_per_h, 4),
+        "mean_wait_s": _number(figures.mean_wait, 4),
+    }
+
+
+def critical_gap_json(estimate: CriticalGapEstimate, source: str) -> dict[str, Any]:
+    """The ``critical-gap --json`` document."""
+    return {
+        "file": source,
+        "method": estimate.method,
+        "drivers": estimate.drivers,
+        "critical_gap_mean_s": _number(estimate.mean, 4),
+        "critical_gap_sd_s": _number(estimate.sd, 4),
+        "ci95_low_s": _number(estimate.ci_low, 4),
+        "ci95_high_s": _number(estimate.ci_high, 4),
+        "log_mean": _number(estimate.log_mean),
+        "log_sd": _number(estimate.log_sd),
+        "log_likelihood": _number(estimate.log_likelihood, 4),
+        "note": estimate.note,
     }

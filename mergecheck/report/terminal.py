@@ -8,8 +8,9 @@ from rich.table import Table
 from rich.text import Text
 
 from ..assessment import SiteAssessment, summary_sentence
+from ..critical_gap_estimation import CriticalGapEstimate
 from ..figures import VehicleFigures
-from ..results import AccelerationRun
+from ..results import AccelerationRun, GapFigures
 from ..units import UnitSystem, convert, show, unit_symbol
 
 
@@ -234,3 +235,34 @@ def site_view(assessment: SiteAssessment, system: UnitSystem) -> RenderableType:
 
 def _num(value: float | None, kind: str, system: UnitSystem) -> str:
     return "-" if value is None else f"{convert(value, kind, system):.{0 if kind == 'length' else 1}f}"
+
+
+def gaps_view(figures: GapFigures) -> RenderableType:
+    table = Table.grid(padding=(0, 2))
+    table.add_column(style="bold")
+    table.add_column()
+    model = (
+        "negative exponential"
+        if figures.model == "exponential"
+        else (f"Cowan M3, minimum headway {figures.min_headway:.2f} s, free share {figures.free_fraction:.3f}")
+    )
+    table.add_row("Headways", f"{model} at {figures.flow * 3600:.0f} veh/h")
+    table.add_row("Critical gap", f"{figures.critical_gap:.2f} s")
+    table.add_row("P(headway >= critical gap)", f"{figures.p_headway_at_least:.4f}")
+    table.add_row("Acceptable gaps", f"{figures.acceptable_gaps_per_h:.1f} per hour")
+    table.add_row("Mean wait, stopped driver", f"{figures.mean_wait:.1f} s (random arrival, lag may be taken)")
+    return table
+
+
+def critical_gap_view(estimate: CriticalGapEstimate, source: str) -> RenderableType:
+    table = Table.grid(padding=(0, 2))
+    table.add_column(style="bold")
+    table.add_column()
+    table.add_row("Observations", f"{source}: {estimate.drivers} drivers")
+    table.add_row("Method", estimate.note)
+    label = "Mean critical gap" if estimate.method == "mle" else "Critical gap"
+    table.add_row(label, f"{estimate.mean:.2f} s (95 % interval {estimate.ci_low:.2f} to {estimate.ci_high:.2f} s)")
+    table.add_row(
+        "Standard deviation", "not estimated by this method" if estimate.sd is None else f"{estimate.sd:.2f} s"
+    )
+    return table

@@ -1,0 +1,118 @@
+"""Merge probability: the renewal computation against Monte Carlo, closed forms and monotone behaviour."""
+
+from __future__ import annotations
+
+import itertools
+import math
+
+import numpy as np
+import pytest
+from scipy import integrate, stats
+
+from mergecheck.gap_acceptance import CriticalGap, merge_reliability, not_merged, simulate_merges, stream_time
+from mergecheck.headways import CowanM3, Exponential
+
+CAR = CriticalGap(3.0, 0.8)
+TAU = np.array([0.0, 0.5, 1.0, 2.0, 4.0, 8.0, 16.0, 32.0])
+
+
+@pytest.mark.parametrize(
+    "headways",
+    [
+        Exponential(600 / 3600),
+        Exponential(1400 / 3600),
+        CowanM3.tanner(1000 / 3600, 1.0),
+        CowanM3.tanner(1800 / 3600, 1.2),
+    ],
+    ids=["exp-600", "exp-1400", "m3-1000", "m3-1800"],
+)
+def test_analytic_agrees_with_monte_carlo(headways: Exponential | CowanM3) -> None:
+    """Monte Carlo with 100,000 drivers, seeded. Tolerance 0.008: four standard errors (at most 0.0016)
+    plus the analytic grid's known bias (a residual is counted as passed at the end of its 0.05 s cell,
+    so the analytic curve is at most one cell late: conservative)."""
+    analytic = 1 - not_merged(headways, CAR, TAU)
+    merged_at = simulate_merges(headways, CAR, 100_000, float(TAU[-1]), np.random.default_rng(2024))
+    simulated = np.array([(merged_at <= t).mean() for t in TAU])
+    assert np.max(np.abs(analytic - simulated)) < 0.008
+
+
+def test_first_gap_is_length_biased() -> None:
+    """At tau = 0 the driver is beside a length-biased gap: P(accept) = E[e^{-qT}(1 + qT)] over the
+    log-normal critical gap (inspection paradox; integrated independently with scipy.integrate.quad)."""
+    q = 1400 / 3600
+    mu, sigma = CAR.log_parameters
+    density = stats.lognorm(sigma, scale=math.exp(mu)).pdf
+    expected, _ = integrate.quad(lambda t: density(t) * math.exp(-q * t) * (1 + q * t), 0, 60)
+    assert 1 - float(not_merged(Exponential(q), CAR, np.array([0.0]))[0]) == pytest.approx(expected, abs=2e-4)
+
+
+def test_fixed_critical_gap_mean_merge_time() -> None:
+    """A consistent driver (sd 0) in random traffic, T = 4 s, q = 0.3 veh/s. Mean stream time to merge from
+    a length-biased start: E = int_0^T r w(r) dr + P(reject first) E[h; h < T] / e^{-qT}, w(r) = q(e^{-qr} - e^{-qT})
+    (renewal argument; integrated with scipy.integrate.quad). The integral of P_not over tau must equal it."""
+    q, t_c = 0.3, 4.0
+    p = math.exp(-q * t_c)
+    w = lambda r: q * (math.exp(-q * r) - p)  # noqa: E731
+    lag, _ = integrate.quad(lambda r: r * w(r), 0, t_c)
+    reject_first, _ = integrate.quad(w, 0, t_c)
+    short, _ = integrate.quad(lambda h: h * q * math.exp(-q * h), 0, t_c)
+    expected = lag + reject_first * short / p
+    tau = np.linspace(0, 200, 4001)
+    p_not = not_merged(Exponential(q), CriticalGap(t_c, 0.0), tau, step=0.01)
+    assert np.trapezoid(p_not, tau) == pytest.approx(expected, rel=5e-3)
+
+
+def test_monotone_in_flow_gap_and_time() -> None:
+    """More flow or a longer critical gap: lower probability; more stream time (a longer lane): higher."""
+    tau = np.linspace(0, 30, 61)
+    flows = [400, 800, 1200, 1600]
+    curves = [1 - not_merged(CowanM3.tanner(f / 3600, 1.0), CAR, tau) for f in flows]
+    for low, high in itertools.pairwise(curves):
+        assert np.all(high <= low + 1e-12)
+    gaps = [CriticalGap(m, 0.8) for m in (2.5, 3.0, 4.0, 5.0)]
+    curves = [1 - not_merged(Exponential(0.3), g, tau) for g in gaps]
+    for low, high in itertools.pairwise(curves):
+        assert np.all(high <= low + 1e-12)
+    for curve in curves:
+        assert np.all(np.diff(curve) >= -1e-12) and np.all((curve >= 0) & (curve <= 1))
+
+
+def test_stream_time_constant_speeds_closed_form() -> None:
+    """Moving observer at constant speed v_r in a stream at v_m: tau = L (v_m - v_r) / (v_m v_r)."""
+    x = np.linspace(0.0, 400.0, 401)
+    tau = stream_time(x, np.full_like(x, 20.0), 30.0, 1.0, 100.0, 40.0)
+    assert tau[-1] == pytest.approx(300.0 * 10.0 / (30.0 * 20.0))
+    assert np.all(tau[x < 100.0] == 0.0)
+    matched = stream_time(x, np.full_like(x, 30.0), 30.0, 4.0, 0.0, 40.0)
+    assert matched[-1] == pytest.approx(400.0 * 4.0 / (30.0 * 30.0))  # the search speed keeps gaps passing
+
+
+def test_reliability_consequences() -> None:
+    """Forced merges and stops are the class flow times the probabilities (issue 4)."""
+    x = np.linspace(0.0, 1500.0, 1501)
+    speed = np.minimum(15.0 + 0.03 * x, 26.0)
+    result = merge_reliability(
+        x,
+        speed,
+        convergence=100.0,
+        lane_end=350.0,
+        taper_end=440.0,
+        stream_speed=28.0,
+        merge_speed=26.0,
+        minimum_merge_speed=20.0,
+        search_speed=4.0,
+        headways=CowanM3.tanner(1200 / 3600, 1.0),
+        critical_gap=CAR,
+        stop_critical_gap=CriticalGap(8.0, 1.5),
+        reliability=0.95,
+        flow=300 / 3600,
+    )
+    assert result.eligible_station == pytest.approx(167.0)  # 15 + 0.03 x = 20 m/s
+    assert 0 < result.by_lane_end <= result.by_taper_end < 1
+    assert result.stops_per_h == pytest.approx(300 * (1 - result.by_taper_end))
+    assert result.forced_merges_per_h == pytest.approx(300 * (result.by_taper_end - result.by_lane_end))
+    assert result.length_for_reliability is not None
+    assert float(np.interp(100.0 + result.length_for_reliability, result.station, result.probability)) == pytest.approx(
+        0.95, abs=1e-3
+    )
+    assert result.mean_stopped_wait > 0
