@@ -26,7 +26,7 @@ from dataclasses import dataclass
 from typing import Literal
 
 from .cautions import CAUTIONS
-from .gap_acceptance import MergeReliability, merge_reliability
+from .gap_acceptance import MergeReliability, MonteCarloCheck, merge_reliability, monte_carlo_check
 from .headways import HeadwayModel, headway_model
 from .policy import PolicyValue, initial_speed_for, load_policy, policy_minimum
 from .site import Site, SiteVehicle
@@ -86,6 +86,8 @@ class VehicleAssessment:
     """Crawl speed on the final grade when below merge speed. [m/s]"""
     merge: MergeReliability
     """Gap acceptance in the adjacent lane along this vehicle's trajectory."""
+    monte_carlo: MonteCarloCheck | None
+    """Simulated check of the merge probabilities, when asked for."""
     length_needed: float | None
     """The longer of the required length and the length for the target merge reliability; None if unbounded. [m]"""
     verdict: VehicleVerdict
@@ -123,7 +125,9 @@ def adjacent_headways(site: Site) -> HeadwayModel | None:
     )
 
 
-def assess_vehicle(site: Site, entry: SiteVehicle, initial_speed: float) -> VehicleAssessment:
+def assess_vehicle(
+    site: Site, entry: SiteVehicle, initial_speed: float, monte_carlo: int = 0, seed: int = 0
+) -> VehicleAssessment:
     """Integrate one design vehicle along the site and read it against the lane."""
     trajectory = accelerate(
         entry.vehicle.model,
@@ -163,6 +167,17 @@ def assess_vehicle(site: Site, entry: SiteVehicle, initial_speed: float) -> Vehi
         flow=entry.share * site.ramp_flow,
         search_length=available + site.taper_length + RELIABILITY_SEARCH,
     )
+    simulated = None
+    if monte_carlo > 0:
+        simulated = monte_carlo_check(
+            merge,
+            lane_end=site.convergence + available,
+            taper_end=site.taper_end,
+            headways=adjacent_headways(site),
+            critical_gap=entry.critical_gap,
+            count=monte_carlo,
+            seed=seed,
+        )
     needed = None
     if required is not None and merge.length_for_reliability is not None:
         needed = max(required, merge.length_for_reliability)
@@ -189,6 +204,7 @@ def assess_vehicle(site: Site, entry: SiteVehicle, initial_speed: float) -> Vehi
         large_differential=differential > site.flag_speed_differential,
         crawl_speed=trajectory.crawl_speed,
         merge=merge,
+        monte_carlo=simulated,
         length_needed=needed,
         verdict=verdict,
     )
@@ -207,11 +223,17 @@ def governing_vehicle(results: tuple[VehicleAssessment, ...]) -> VehicleAssessme
     return max(results, key=need)
 
 
-def assess(site: Site) -> SiteAssessment:
-    """Assess every design vehicle at a site and compare with the policy table."""
+def assess(site: Site, *, monte_carlo: int = 0, seed: int = 20261202) -> SiteAssessment:
+    """Assess every design vehicle at a site and compare with the policy table.
+
+    ``monte_carlo`` > 0 adds a simulated check of each vehicle's merge
+    probabilities with that many drivers (seeded).
+    """
     policy_table = None if site.policy_file == "none" else load_policy(site.policy_file)
     initial, initial_basis = _initial_speed(site, policy_table)
-    results = tuple(assess_vehicle(site, entry, initial) for entry in site.vehicles)
+    results = tuple(
+        assess_vehicle(site, entry, initial, monte_carlo, seed + i) for i, entry in enumerate(site.vehicles)
+    )
     governing = governing_vehicle(results)
     rise = float(site.profile.elevation(site.taper_start) - site.profile.elevation(site.convergence))
     average_grade = rise / site.lane_length

@@ -65,6 +65,13 @@ def build_parser() -> argparse.ArgumentParser:
         "--json", nargs="?", const="-", metavar="FILE", help="write JSON (SI values) to FILE, or to standard output"
     )
     check.add_argument("--markdown", metavar="FILE", help="write the report as Markdown to FILE")
+    check.add_argument(
+        "--monte-carlo",
+        type=int,
+        default=0,
+        metavar="N",
+        help="also simulate N merging drivers per vehicle (seeded) as a check",
+    )
 
     commands.add_parser("schema", help="print the JSON Schema of the site file")
 
@@ -147,7 +154,9 @@ def _accel(args: argparse.Namespace, out: Console) -> int:
 
 
 def _check(args: argparse.Namespace, out: Console) -> int:
-    assessment = assess(load_site(args.site))
+    if not 0 <= args.monte_carlo <= 10_000_000:
+        raise InputError("command line", "--monte-carlo", "must lie between 0 and 10,000,000 drivers")
+    assessment = assess(load_site(args.site), monte_carlo=args.monte_carlo)
     documents: list[tuple[str, str]] = []
     if args.json is not None:
         documents.append((args.json, json_report.dumps(json_report.site_json(assessment))))

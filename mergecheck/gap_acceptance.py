@@ -234,6 +234,8 @@ class MergeReliability:
     """Stations along the path. [m]"""
     probability: FloatArray
     """Probability of having merged by each station. [-]"""
+    stream_time: FloatArray
+    """tau(x) of Eq. (1) at each station (0 before the eligible station). [s]"""
     eligible_station: float | None
     """Where merging may begin; None if the vehicle never gets within the minimum merge speed. [m]"""
     by_lane_end: float
@@ -282,6 +284,7 @@ def merge_reliability(
         speed = np.append(speed, speed[-1])
     eligible = (station >= convergence) & (speed >= minimum_merge_speed)
     x_a = float(station[np.argmax(eligible)]) if eligible.any() else None
+    tau = np.zeros_like(station)
     if x_a is None:
         probability = np.zeros_like(station)
     else:
@@ -313,6 +316,7 @@ def merge_reliability(
     return MergeReliability(
         station=station,
         probability=probability,
+        stream_time=tau,
         eligible_station=x_a,
         by_lane_end=by_lane_end,
         by_taper_end=by_taper_end,
@@ -322,3 +326,46 @@ def merge_reliability(
         stops_per_h=flow * 3600 * (1.0 - by_taper_end),
         mean_stopped_wait=wait,
     )
+
+
+@dataclass(frozen=True, slots=True)
+class MonteCarloCheck:
+    """Simulated merge probabilities for one design vehicle, beside the analytic ones."""
+
+    merges: int
+    by_lane_end: float
+    by_taper_end: float
+    standard_error: float
+    """Largest binomial standard error of the two probabilities. [-]"""
+
+
+def monte_carlo_check(
+    result: MergeReliability,
+    *,
+    lane_end: float,
+    taper_end: float,
+    headways: HeadwayModel | None,
+    critical_gap: CriticalGap,
+    count: int,
+    seed: int,
+) -> MonteCarloCheck:
+    """Simulate ``count`` merging drivers along the vehicle's trajectory (:func:`simulate_merges`).
+
+    Each simulated driver merges at stream time tau_m; they have merged by station x when
+    x is past the eligible station and tau(x) >= tau_m.
+    """
+    if result.eligible_station is None or headways is None:
+        p = (
+            [0.0, 0.0]
+            if result.eligible_station is None
+            else [float(lane_end >= result.eligible_station), float(taper_end >= result.eligible_station)]
+        )
+        return MonteCarloCheck(count, p[0], p[1], 0.0)
+    tau_at = np.interp([lane_end, taper_end], result.station, result.stream_time)
+    merged_at = simulate_merges(headways, critical_gap, count, float(tau_at[-1]), np.random.default_rng(seed))
+    probabilities = [
+        float(np.mean(merged_at <= t)) if x >= result.eligible_station else 0.0
+        for x, t in zip((lane_end, taper_end), tau_at, strict=True)
+    ]
+    error = max(math.sqrt(p * (1 - p) / count) for p in probabilities)
+    return MonteCarloCheck(count, probabilities[0], probabilities[1], error)

@@ -4,13 +4,16 @@ from __future__ import annotations
 
 import itertools
 import math
+from pathlib import Path
 
 import numpy as np
 import pytest
 from scipy import integrate, stats
 
+from mergecheck.assessment import assess
 from mergecheck.gap_acceptance import CriticalGap, merge_reliability, not_merged, simulate_merges, stream_time
 from mergecheck.headways import CowanM3, Exponential
+from mergecheck.site import load_site
 
 CAR = CriticalGap(3.0, 0.8)
 TAU = np.array([0.0, 0.5, 1.0, 2.0, 4.0, 8.0, 16.0, 32.0])
@@ -116,3 +119,34 @@ def test_reliability_consequences() -> None:
         0.95, abs=1e-3
     )
     assert result.mean_stopped_wait > 0
+
+
+@pytest.mark.parametrize(
+    ("flow", "lane"),
+    [("600 veh/h", "150 m"), ("1400 veh/h", "300 m"), ("1800 veh/h", "600 m")],
+)
+def test_site_analytic_agrees_with_simulation_along_trajectories(repo: Path, tmp_path: Path, flow: str, lane: str) -> None:
+    """The site check's analytic merge probabilities against its Monte Carlo along the same trajectories
+    (100,000 drivers): within four standard errors plus 0.004 (the analytic grid's one-cell lateness)."""
+    text = (repo / "examples" / "larkspur-road.yaml").read_text()
+    text = text.replace("adjacent_lane_flow: 1400 veh/h", f"adjacent_lane_flow: {flow}").replace("lane_length: 300 m", f"lane_length: {lane}")
+    site_file = tmp_path / "site.yaml"
+    site_file.write_text(text)
+    assessment = assess(load_site(str(site_file)), monte_carlo=100_000)
+    for result in assessment.vehicles:
+        simulated = result.monte_carlo
+        assert simulated is not None
+        tolerance = 4 * simulated.standard_error + 0.004
+        assert result.merge.by_lane_end == pytest.approx(simulated.by_lane_end, abs=tolerance)
+        assert result.merge.by_taper_end == pytest.approx(simulated.by_taper_end, abs=tolerance)
+
+
+def test_longer_lane_gives_higher_merge_probability(repo: Path, tmp_path: Path) -> None:
+    text = (repo / "examples" / "larkspur-road.yaml").read_text()
+    probabilities = []
+    for lane in ("200 m", "300 m", "450 m", "700 m"):
+        site_file = tmp_path / "site.yaml"
+        site_file.write_text(text.replace("lane_length: 300 m", f"lane_length: {lane}"))
+        car = assess(load_site(str(site_file))).vehicles[0]
+        probabilities.append(car.merge.by_lane_end)
+    assert all(b > a for a, b in zip(probabilities, probabilities[1:], strict=False))

@@ -123,6 +123,14 @@ def site_json(assessment: SiteAssessment) -> dict[str, Any]:
                 "stops_per_h": _number(v.merge.stops_per_h, 3),
                 "mean_stopped_wait_s": _number(v.merge.mean_stopped_wait, 3),
                 "critical_gap_s": {"mean": v_gap.mean, "sd": v_gap.sd},
+                "monte_carlo": None
+                if v.monte_carlo is None
+                else {
+                    "merges": v.monte_carlo.merges,
+                    "merge_probability_by_lane_end": _number(v.monte_carlo.by_lane_end),
+                    "merge_probability_by_taper_end": _number(v.monte_carlo.by_taper_end),
+                    "standard_error": _number(v.monte_carlo.standard_error),
+                },
             }
             for v, v_gap in ((v, _gap(assessment, v)) for v in assessment.vehicles)
         ],

@@ -193,9 +193,10 @@ def site_view(assessment: SiteAssessment, system: UnitSystem) -> RenderableType:
         merging.add_column(heading, justify="right")
     for v in assessment.vehicles:
         m = v.merge
+        simulated = "" if v.monte_carlo is None else f" (sim. {v.monte_carlo.by_lane_end:.1%})"
         merging.add_row(
             v.vehicle.id,
-            f"{m.by_lane_end:.1%}",
+            f"{m.by_lane_end:.1%}{simulated}",
             f"{m.by_taper_end:.1%}",
             f"{m.forced_merges_per_h:.1f}",
             f"{m.stops_per_h:.1f}",
