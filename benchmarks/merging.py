@@ -34,7 +34,9 @@ def main() -> None:
         simulate_merges(stream, GAP, count, 30.0, np.random.default_rng(i))
     elapsed = time.perf_counter() - start
     print(f"Monte Carlo: {len(STREAMS)} sites x {count:,} merging drivers")
-    print(f"  {elapsed:.2f} s, {len(STREAMS) * count / elapsed:,.0f} merges per second, {elapsed / len(STREAMS):.2f} s per site")
+    print(
+        f"  {elapsed:.2f} s, {len(STREAMS) * count / elapsed:,.0f} merges per second, {elapsed / len(STREAMS):.2f} s per site"
+    )
 
 
 if __name__ == "__main__":

@@ -28,6 +28,7 @@ from typing import Literal
 from .cautions import CAUTIONS
 from .gap_acceptance import MergeReliability, MonteCarloCheck, merge_reliability, monte_carlo_check
 from .headways import HeadwayModel, headway_model
+from .merge_operations import MergeOperations, merge_operations
 from .policy import PolicyValue, initial_speed_for, load_policy, policy_minimum
 from .site import Site, SiteVehicle
 from .trajectory import Trajectory, accelerate
@@ -106,6 +107,8 @@ class SiteAssessment:
     average_grade: float
     """Average grade from the convergence point to the start of the taper. [fraction]"""
     policy: PolicyValue | None
+    merge_area: MergeOperations | None
+    """Capacity-manual merge-area check; None without a mainline flow."""
     assumptions: tuple[Assumption, ...]
     cautions: tuple[str, ...]
 
@@ -249,6 +252,7 @@ def assess(site: Site, *, monte_carlo: int = 0, seed: int = 20261202) -> SiteAss
         initial_speed=initial,
         average_grade=average_grade,
         policy=policy,
+        merge_area=merge_operations(site, {r.vehicle.id: r.speed_at_taper_start for r in results}),
         assumptions=_assumptions(site, results, initial, initial_basis, policy),
         cautions=CAUTIONS,
     )
@@ -348,6 +352,38 @@ def _assumptions(
         )
         for parameter in v.parameters:
             items.append(Assumption(f"{v.id}: {parameter.name}", parameter.text, parameter.source))
+    if site.merge.mainline_flow is not None:
+        m = site.merge
+        items += [
+            Assumption(
+                "Merge-area method",
+                "capacity-manual merge segment: P_FM, v12, influence-area density, LOS and capacity checks",
+                "Highway Capacity Manual 6th/7th ed., chapter 14 (equations as reproduced in REFERENCES.md section 6, CONFIRMED)",
+            ),
+            Assumption(
+                "Acceleration length for the merge-area check",
+                f"lane plus taper, {show(site.lane_length + site.taper_length, 'length', 'si')}",
+                "the manual's L_A includes the taper; the policy-table length does not (converted here)",
+            ),
+            Assumption(
+                "Demand in passenger cars",
+                f"PHF {m.peak_hour_factor:.2f}; mainline heavy vehicles {m.mainline_heavy_vehicles:.0%} at E_T "
+                f"{2.0 if m.terrain == 'level' else 3.0:.1f} ({m.terrain})",
+                "HCM f_HV = 1/(1 + P_T (E_T - 1)); E_T 2.0 level, 3.0 rolling (REFERENCES.md section 6)",
+            ),
+            Assumption(
+                "Heavy ramp vehicles on the grade",
+                "E_T times stream free-flow speed over the vehicle's speed at the end of the lane (at least E_T)",
+                "assumption: speed-ratio equivalent standing in for the manual's specific-grade tables (not at hand)",
+            ),
+            Assumption(
+                "Queue in breakdown",
+                f"triangular flow-density relation, capacity per lane from the manual, jam density "
+                f"{m.jam_density * 1000:.0f} veh/km per lane; ramp demand served first; peak lasting "
+                f"{m.peak_duration / 3600:.2f} h, then {m.demand_after_peak:.0%} of the peak",
+                "kinematic-wave theory (Lighthill and Whitham 1955; Richards 1956); jam density common practice",
+            ),
+        ]
     if policy is not None:
         items.append(Assumption("Policy table", policy.table.title, policy.table.source))
         items.append(Assumption("Policy interpolation", "see rule", policy.table.interpolation))

@@ -22,9 +22,12 @@ from .errors import InputError
 from .figures import vehicle_figures
 from .headways import HEADWAY_MODELS, headway_model, mean_wait
 from .inputs import MAX_GRADE, ProfileFile, build_profile, read_yaml
+from .merge_area import merge_area, passenger_car_flow
+from .merge_operations import TRUCK_EQUIVALENT
 from .profile import VerticalProfile
 from .report import json_report, markdown, terminal
 from .results import AccelerationRun, GapFigures
+from .shockwave import TrafficState, queue_growth
 from .site import SiteInput, load_site
 from .trajectory import accelerate
 from .units import parse_quantity
@@ -83,6 +86,40 @@ def build_parser() -> argparse.ArgumentParser:
     gaps.add_argument("--free-fraction", type=float, help="M3 share of free vehicles (default Tanner's 1 - Delta q)")
     gaps.add_argument("--json", action="store_true", help="write JSON to standard output")
 
+    area = commands.add_parser("merge-area", help="capacity-manual merge-area density, LOS and capacity checks")
+    area.add_argument("--lanes", type=int, required=True, help="through lanes per direction (2 to 4)")
+    area.add_argument(
+        "--mainline-flow", required=True, help="approaching mainline demand, e.g. '4000 pc/h' or '3600 veh/h'"
+    )
+    area.add_argument("--ramp-flow", required=True, help="ramp demand, e.g. '1000 pc/h' or '900 veh/h'")
+    area.add_argument(
+        "--accel-length", required=True, help="acceleration length as the manual measures it (with the taper)"
+    )
+    area.add_argument("--ffs", required=True, help="mainline free-flow speed, e.g. '65 mph'")
+    area.add_argument("--ramp-ffs", required=True, help="ramp free-flow speed, e.g. '45 mph'")
+    area.add_argument(
+        "--heavy-vehicles", type=float, default=0.0, help="heavy-vehicle share for veh/h flows (default 0)"
+    )
+    area.add_argument(
+        "--terrain", choices=["level", "rolling"], default="level", help="for the truck equivalent (default level)"
+    )
+    area.add_argument("--phf", type=float, default=1.0, help="peak-hour factor for veh/h flows (default 1.0)")
+    area.add_argument("--lanes-downstream", type=int, help="lanes downstream of the merge if different")
+    area.add_argument("--json", action="store_true", help="write JSON to standard output")
+
+    queue = commands.add_parser("queue", help="shock wave and queue between an arriving and a queued state")
+    queue.add_argument("--arrive", required=True, help="arriving flow, e.g. '4200 veh/h'")
+    arrive = queue.add_mutually_exclusive_group(required=True)
+    arrive.add_argument("--arrive-density", help="arriving density, e.g. '40 veh/km'")
+    arrive.add_argument("--arrive-speed", help="arriving speed, e.g. '100 km/h'")
+    queue.add_argument("--discharge", required=True, help="flow discharged from the queue, e.g. '3600 veh/h'")
+    discharge = queue.add_mutually_exclusive_group(required=True)
+    discharge.add_argument("--discharge-density", help="density in the queue, e.g. '150 veh/km'")
+    discharge.add_argument("--discharge-speed", help="speed in the queue, e.g. '25 km/h'")
+    queue.add_argument("--duration", default="1 h", help="how long the arriving state lasts (default 1 h)")
+    queue.add_argument("--units", choices=["si", "us"], default="si", help="unit system for display")
+    queue.add_argument("--json", action="store_true", help="write JSON (SI values) to standard output")
+
     estimate = commands.add_parser("critical-gap", help="estimate critical gaps from field observations (CSV)")
     estimate.add_argument("observations", help="CSV with accepted_gap_s and largest_rejected_gap_s per driver")
     estimate.add_argument("--method", choices=sorted(ESTIMATORS), default="mle", help="estimator (default mle)")
@@ -104,6 +141,10 @@ def main(argv: Sequence[str] | None = None) -> int:
                 return _check(args, stdout)
             case "gaps":
                 return _gaps(args, stdout)
+            case "merge-area":
+                return _merge_area(args, stdout)
+            case "queue":
+                return _queue(args, stdout)
             case "critical-gap":
                 return _critical_gap(args, stdout)
             case "schema":
@@ -215,6 +256,83 @@ def _critical_gap(args: argparse.Namespace, out: Console) -> int:
         sys.stdout.write(json_report.dumps(json_report.critical_gap_json(estimate, args.observations)))
     else:
         out.print(terminal.critical_gap_view(estimate, args.observations))
+    return EXIT_OK
+
+
+def _flow_pc_h(text: str, field: str, heavy: float, terrain: str, phf: float) -> float:
+    """A flow in pc/h: written in pc/h it is taken as is; in veh/h it is converted (HCM f_HV and PHF)."""
+    value = parse_quantity(text, "flow", source="command line", field=field) * 3600
+    if not 0 <= value <= 20_000:
+        raise InputError("command line", field, "must lie between 0 and 20,000 per hour")
+    if "pc" in text or "passenger" in text:
+        return value
+    return passenger_car_flow(value, heavy, TRUCK_EQUIVALENT[terrain], phf)
+
+
+def _merge_area(args: argparse.Namespace, out: Console) -> int:
+    if not 2 <= args.lanes <= 4:
+        raise InputError("command line", "--lanes", "the manual's merge method covers 2 to 4 lanes per direction")
+    if args.lanes_downstream is not None and not args.lanes <= args.lanes_downstream <= args.lanes + 2:
+        raise InputError("command line", "--lanes-downstream", "must be at least --lanes and at most two more")
+    if not 0 <= args.heavy_vehicles <= 1:
+        raise InputError("command line", "--heavy-vehicles", "must be a share between 0 and 1")
+    if not 0.25 < args.phf <= 1:
+        raise InputError("command line", "--phf", "must lie between 0.25 and 1")
+    mainline = _flow_pc_h(args.mainline_flow, "--mainline-flow", args.heavy_vehicles, args.terrain, args.phf)
+    ramp = _flow_pc_h(args.ramp_flow, "--ramp-flow", args.heavy_vehicles, args.terrain, args.phf)
+    length = parse_quantity(args.accel_length, "length", source="command line", field="--accel-length")
+    if not 0 <= length <= 2000:
+        raise InputError("command line", "--accel-length", "must lie between 0 and 2000 m")
+    speeds = {}
+    for name, text in (("--ffs", args.ffs), ("--ramp-ffs", args.ramp_ffs)):
+        speeds[name] = parse_quantity(text, "speed", source="command line", field=name)
+        if not 15 / 3.6 <= speeds[name] <= 160 / 3.6:
+            raise InputError("command line", name, "must lie between 15 and 160 km/h")
+    result = merge_area(
+        lanes=args.lanes,
+        mainline_pc_h=mainline,
+        ramp_pc_h=ramp,
+        acceleration_length_ft=length / 0.3048,
+        free_flow_speed_mph=speeds["--ffs"] / 0.44704,
+        ramp_free_flow_speed_mph=speeds["--ramp-ffs"] / 0.44704,
+        lanes_downstream=args.lanes_downstream,
+    )
+    if args.json:
+        sys.stdout.write(json_report.dumps(json_report.area_json(result)))
+    else:
+        out.print(terminal.area_view(result))
+    return EXIT_OK
+
+
+def _state(flow_text: str, density_text: str | None, speed_text: str | None, prefix: str) -> TrafficState:
+    flow = parse_quantity(flow_text, "flow", source="command line", field=f"--{prefix}")
+    if not 0 < flow <= 20_000 / 3600:
+        raise InputError("command line", f"--{prefix}", "must be positive and at most 20,000 veh/h")
+    if density_text is not None:
+        density = parse_quantity(density_text, "density", source="command line", field=f"--{prefix}-density")
+        if not 0 < density <= 1.0:
+            raise InputError("command line", f"--{prefix}-density", "must be positive and at most 1000 veh/km")
+        return TrafficState(flow, density)
+    assert speed_text is not None
+    speed = parse_quantity(speed_text, "speed", source="command line", field=f"--{prefix}-speed")
+    if not 0 < speed <= 200 / 3.6:
+        raise InputError("command line", f"--{prefix}-speed", "must be positive and at most 200 km/h")
+    return TrafficState(flow, flow / speed)
+
+
+def _queue(args: argparse.Namespace, out: Console) -> int:
+    arriving = _state(args.arrive, args.arrive_density, args.arrive_speed, "arrive")
+    queued = _state(args.discharge, args.discharge_density, args.discharge_speed, "discharge")
+    duration = parse_quantity(args.duration, "time", source="command line", field="--duration")
+    if not 0 < duration <= 24 * 3600:
+        raise InputError("command line", "--duration", "must be positive and at most 24 h")
+    if arriving.density == queued.density:
+        raise InputError("command line", "--discharge-density", "the two states must differ in density")
+    result = queue_growth(arriving, queued, duration)
+    if args.json:
+        sys.stdout.write(json_report.dumps(json_report.queue_json(result)))
+    else:
+        out.print(terminal.queue_view(result, args.units))
     return EXIT_OK
 
 

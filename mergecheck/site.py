@@ -51,6 +51,10 @@ class MainlineInput(_Strict):
     adjacent_lane_flow: str = Field(
         description="Design-hour flow in the lane ramp traffic merges into, e.g. '1400 veh/h'."
     )
+    flow: str | None = Field(
+        default=None,
+        description="Design-hour flow of the whole carriageway approaching the merge, e.g. '3600 veh/h' (for the merge-area check).",
+    )
 
 
 class RampInput(_Strict):
@@ -161,6 +165,35 @@ class GapAcceptanceInput(_Strict):
     )
 
 
+class MergeAreaInput(_Strict):
+    """Inputs of the capacity-manual merge-area check and the breakdown figures."""
+
+    peak_hour_factor: float = Field(default=0.94, gt=0.25, le=1.0, description="Peak-hour factor (default 0.94).")
+    mainline_heavy_vehicles: float = Field(
+        default=0.05, ge=0.0, le=1.0, description="Share of heavy vehicles in the mainline flow (default 0.05)."
+    )
+    terrain: Literal["level", "rolling"] = Field(
+        default="level", description="Terrain for the truck equivalents (E_T 2.0 level, 3.0 rolling)."
+    )
+    free_flow_speed: str | None = Field(
+        default=None, description="Mainline free-flow speed; default: the operating speed."
+    )
+    ramp_free_flow_speed: str | None = Field(
+        default=None, description="Ramp free-flow speed; default: the controlling speed (30 km/h for a stop)."
+    )
+    ramp_lanes: int = Field(default=1, ge=1, le=2, description="Lanes on the ramp roadway.")
+    jam_density: str = Field(
+        default="120 veh/km", description="Jam density per lane for the queue (default 120 veh/km)."
+    )
+    peak_duration: str = Field(default="1 h", description="How long the design-hour demand lasts (default 1 h).")
+    demand_after_peak: float = Field(
+        default=0.7,
+        gt=0.0,
+        le=1.0,
+        description="Demand after the peak as a share of the peak (default 0.7), to time the queue's clearing.",
+    )
+
+
 class SiteInput(_Strict):
     """An entrance terminal to check (the site file)."""
 
@@ -171,6 +204,7 @@ class SiteInput(_Strict):
     geometry: GeometryInput
     criteria: CriteriaInput = Field(default_factory=CriteriaInput)
     gap_acceptance: GapAcceptanceInput = Field(default_factory=GapAcceptanceInput)
+    merge_area: MergeAreaInput = Field(default_factory=MergeAreaInput)
     policy: str | None = Field(
         default=None,
         description="Policy table file (path relative to this file), 'none', or omitted for the bundled table.",
@@ -204,6 +238,27 @@ class GapSettings:
     """[m/s]"""
     minimum_merge_speed: float
     """[m/s]"""
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class MergeAreaSettings:
+    """Merge-area inputs in SI."""
+
+    mainline_flow: float | None
+    """[veh/s]"""
+    peak_hour_factor: float
+    mainline_heavy_vehicles: float
+    terrain: Literal["level", "rolling"]
+    free_flow_speed: float
+    """[m/s]"""
+    ramp_free_flow_speed: float
+    """[m/s]"""
+    ramp_lanes: int
+    jam_density: float
+    """Per lane. [veh/m]"""
+    peak_duration: float
+    """[s]"""
+    demand_after_peak: float
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -243,6 +298,7 @@ class Site:
     """[m/s]"""
     taper_credit: float
     gaps: GapSettings
+    merge: MergeAreaSettings
     policy_file: str | None
     """Path of the policy table, 'none', or None for the bundled one."""
 
@@ -400,6 +456,7 @@ def site_from_input(data: SiteInput, source: str) -> Site:
         flag_speed_differential=flag,
         taper_credit=data.criteria.taper_credit,
         gaps=gaps,
+        merge=_merge_settings(data, operating, controlling, adjacent, source),
         policy_file=_policy_path(data.policy, base_dir),
     )
 
@@ -460,6 +517,50 @@ def _gap_settings(settings: GapAcceptanceInput, operating: float, adjacent: floa
         reliability=settings.reliability,
         search_speed=search,
         minimum_merge_speed=operating - differential,
+    )
+
+
+def _merge_settings(
+    data: SiteInput, operating: float, controlling: float | None, adjacent: float, source: str
+) -> MergeAreaSettings:
+    m = data.merge_area
+
+    def q(text: str, kind: str, field: str) -> float:
+        return parse_quantity(text, kind, source=source, field=field)
+
+    flow = None
+    if data.mainline.flow is not None:
+        flow = q(data.mainline.flow, "flow", "mainline.flow")
+        if not adjacent <= flow <= data.mainline.lanes * 3000 / 3600:
+            raise InputError(
+                source, "mainline.flow", "must be at least the adjacent-lane flow and at most 3000 veh/h per lane"
+            )
+    ffs = operating if m.free_flow_speed is None else q(m.free_flow_speed, "speed", "merge_area.free_flow_speed")
+    ramp_ffs = (
+        (controlling or 30 / 3.6)
+        if m.ramp_free_flow_speed is None
+        else q(m.ramp_free_flow_speed, "speed", "merge_area.ramp_free_flow_speed")
+    )
+    for field, value in (("merge_area.free_flow_speed", ffs), ("merge_area.ramp_free_flow_speed", ramp_ffs)):
+        if not 15 / 3.6 <= value <= 160 / 3.6:
+            raise InputError(source, field, "must lie between 15 and 160 km/h")
+    jam = q(m.jam_density, "density", "merge_area.jam_density")
+    if not 0.06 <= jam <= 0.2:
+        raise InputError(source, "merge_area.jam_density", "must lie between 60 and 200 veh/km per lane")
+    duration = q(m.peak_duration, "time", "merge_area.peak_duration")
+    if not 0 < duration <= 6 * 3600:
+        raise InputError(source, "merge_area.peak_duration", "must be positive and at most 6 h")
+    return MergeAreaSettings(
+        mainline_flow=flow,
+        peak_hour_factor=m.peak_hour_factor,
+        mainline_heavy_vehicles=m.mainline_heavy_vehicles,
+        terrain=m.terrain,
+        free_flow_speed=ffs,
+        ramp_free_flow_speed=ramp_ffs,
+        ramp_lanes=m.ramp_lanes,
+        jam_density=jam,
+        peak_duration=duration,
+        demand_after_peak=m.demand_after_peak,
     )
 
 

@@ -35,6 +35,7 @@ _KINDS: dict[str, tuple[str, str]] = {
     "acceleration": ("m/s**2", "an acceleration such as '1.2 m/s^2'"),
     "flow": ("1/s", "a flow such as '1400 veh/h'"),
     "area": ("m**2", "an area such as '10 m^2'"),
+    "density": ("1/m", "a density such as '120 veh/km' or '190 veh/mi'"),
     "frequency": ("1/s", "a rate such as '0.03 1/s'"),
 }
 

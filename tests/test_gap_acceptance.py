@@ -125,11 +125,15 @@ def test_reliability_consequences() -> None:
     ("flow", "lane"),
     [("600 veh/h", "150 m"), ("1400 veh/h", "300 m"), ("1800 veh/h", "600 m")],
 )
-def test_site_analytic_agrees_with_simulation_along_trajectories(repo: Path, tmp_path: Path, flow: str, lane: str) -> None:
+def test_site_analytic_agrees_with_simulation_along_trajectories(
+    repo: Path, tmp_path: Path, flow: str, lane: str
+) -> None:
     """The site check's analytic merge probabilities against its Monte Carlo along the same trajectories
     (100,000 drivers): within four standard errors plus 0.004 (the analytic grid's one-cell lateness)."""
     text = (repo / "examples" / "larkspur-road.yaml").read_text()
-    text = text.replace("adjacent_lane_flow: 1400 veh/h", f"adjacent_lane_flow: {flow}").replace("lane_length: 300 m", f"lane_length: {lane}")
+    text = text.replace("adjacent_lane_flow: 1400 veh/h", f"adjacent_lane_flow: {flow}").replace(
+        "lane_length: 300 m", f"lane_length: {lane}"
+    )
     site_file = tmp_path / "site.yaml"
     site_file.write_text(text)
     assessment = assess(load_site(str(site_file)), monte_carlo=100_000)
@@ -149,4 +153,4 @@ def test_longer_lane_gives_higher_merge_probability(repo: Path, tmp_path: Path) 
         site_file.write_text(text.replace("lane_length: 300 m", f"lane_length: {lane}"))
         car = assess(load_site(str(site_file))).vehicles[0]
         probabilities.append(car.merge.by_lane_end)
-    assert all(b > a for a, b in zip(probabilities, probabilities[1:], strict=False))
+    assert all(b > a for a, b in itertools.pairwise(probabilities))

@@ -9,7 +9,10 @@ from ..assessment import SiteAssessment, VehicleAssessment
 from ..critical_gap_estimation import CriticalGapEstimate
 from ..figures import VehicleFigures
 from ..gap_acceptance import CriticalGap
+from ..merge_area import MergeArea
+from ..merge_operations import MergeOperations
 from ..results import AccelerationRun, GapFigures
+from ..shockwave import QueueGrowth
 
 
 def _number(value: float | None, digits: int = 6) -> float | None:
@@ -149,6 +152,7 @@ def site_json(assessment: SiteAssessment) -> dict[str, Any]:
             "interpolation": policy.table.interpolation,
             "table": policy.table.origin,
         },
+        "merge_area": merge_area_json(assessment.merge_area),
         "assumptions": [{"name": a.name, "value": a.value, "source": a.source} for a in assessment.assumptions],
         "cautions": list(assessment.cautions),
     }
@@ -183,3 +187,71 @@ def critical_gap_json(estimate: CriticalGapEstimate, source: str) -> dict[str, A
         "log_likelihood": _number(estimate.log_likelihood, 4),
         "note": estimate.note,
     }
+
+
+def area_json(area: MergeArea) -> dict[str, Any]:
+    """The capacity-manual figures (the ``merge-area --json`` document)."""
+    return {
+        "lanes": area.lanes,
+        "mainline_pc_h": _number(area.mainline_pc_h, 3),
+        "ramp_pc_h": _number(area.ramp_pc_h, 3),
+        "acceleration_length_ft": _number(area.acceleration_length_ft, 3),
+        "p_fm": _number(area.p_fm),
+        "v12_pc_h": _number(area.v12_pc_h, 3),
+        "vr12_pc_h": _number(area.vr12_pc_h, 3),
+        "density_pc_mi_ln": _number(area.density_pc_mi_ln, 4),
+        "density_pc_km_ln": _number(area.density_pc_km_ln, 4),
+        "los": area.los,
+        "demand_pc_h": _number(area.downstream.demand_pc_h, 3),
+        "capacity_pc_h": _number(area.downstream.capacity_pc_h, 3),
+        "breaks_down": area.breaks_down,
+        "capacity_checks": [
+            {
+                "check": c.name,
+                "demand_pc_h": _number(c.demand_pc_h, 3),
+                "capacity_pc_h": _number(c.capacity_pc_h, 3),
+                "exceeded": c.exceeded,
+            }
+            for c in area.checks
+        ],
+    }
+
+
+def queue_json(queue: QueueGrowth, veh_per_unit: float = 1.0) -> dict[str, Any]:
+    """Shock-wave and queue figures between two states."""
+    return {
+        "shock_speed_m_s": _number(queue.shock_speed),
+        "queue_growth_veh_h": _number(queue.growth * 3600 * veh_per_unit, 3),
+        "duration_s": _number(queue.duration, 3),
+        "queue_length_m": _number(queue.length_after, 3),
+        "vehicles_stored": _number(queue.stored_after * veh_per_unit, 3),
+        "arriving": {
+            "flow_veh_h": _number(queue.arriving.flow * 3600, 3),
+            "density_veh_km": _number(queue.arriving.density * 1000, 4),
+        },
+        "queued": {
+            "flow_veh_h": _number(queue.queued.flow * 3600, 3),
+            "density_veh_km": _number(queue.queued.density * 1000, 4),
+        },
+    }
+
+
+def merge_area_json(operations: MergeOperations | None) -> dict[str, Any] | None:
+    if operations is None:
+        return None
+    document = area_json(operations.area)
+    document |= {
+        "acceleration_length_m": _number(operations.acceleration_length, 3),
+        "mainline_truck_equivalent": operations.mainline_truck_equivalent,
+        "ramp_equivalents": {e.vehicle_id: _number(e.equivalent, 4) for e in operations.ramp_equivalents},
+        "capacity_lost_to_slow_trucks_pc_h": _number(operations.capacity_lost_pc_h, 3),
+    }
+    if operations.queue is not None:
+        queue = queue_json(operations.queue, operations.veh_per_pc_mainline)
+        document |= {
+            "shock_speed_m_s": queue["shock_speed_m_s"],
+            "queue_growth_veh_h": queue["queue_growth_veh_h"],
+            "queue_length_m_after_1h": _number(-min(operations.queue.shock_speed, 0.0) * 3600, 3),
+            "queue_clears_after_s": None if operations.history is None else _number(operations.history.clears_at, 1),
+        }
+    return document

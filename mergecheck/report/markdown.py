@@ -99,6 +99,43 @@ def site_markdown(assessment: SiteAssessment, system: UnitSystem) -> str:
         ]
         if policy.table.caution:
             lines.append(f"- **Caution:** {_cell(policy.table.caution)}")
+    operations = assessment.merge_area
+    if operations is not None:
+        area = operations.area
+        lines += [
+            "",
+            "## Merge area (Highway Capacity Manual, chapter 14)",
+            "",
+            f"Acceleration length as the manual measures it (lane plus taper): {show(operations.acceleration_length, 'length', system)}.",
+            "",
+            "| Figure | Value |",
+            "|---|---|",
+            f"| Mainline demand | {area.mainline_pc_h:.0f} pc/h |",
+            f"| Ramp demand | {area.ramp_pc_h:.0f} pc/h |",
+            f"| P_FM | {area.p_fm:.3f} |",
+            f"| v12 | {area.v12_pc_h:.0f} pc/h |",
+            f"| Flow entering the influence area | {area.vr12_pc_h:.0f} pc/h |",
+            f"| Influence-area density | {area.density_pc_mi_ln:.1f} pc/mi/ln ({area.density_pc_km_ln:.1f} pc/km/ln) |",
+            f"| Level of service | **{area.los}** |",
+            f"| Capacity lost to slow trucks on the ramp | {operations.capacity_lost_pc_h:.0f} pc/h |",
+        ]
+        lines += [
+            f"| Check: {c.name} | {c.demand_pc_h:.0f} of {c.capacity_pc_h:.0f} pc/h{' — **exceeded**' if c.exceeded else ''} |"
+            for c in area.checks
+        ]
+        if operations.queue is not None:
+            queue = operations.queue
+            clears = (
+                "not within 6 h"
+                if operations.history is None or operations.history.clears_at is None
+                else f"{operations.history.clears_at / 60:.0f} min"
+            )
+            lines += [
+                "",
+                f"**Breakdown.** Demand exceeds the downstream capacity. The back of the queue moves upstream at "
+                f"{show(-queue.shock_speed, 'speed', system)}, the queue gains {queue.growth * 3600 * operations.veh_per_pc_mainline:.0f} veh/h, "
+                f"stretches {show(-queue.shock_speed * 3600, 'length', system)} after one hour, and clears {clears} after the peak begins.",
+            ]
     lines += ["", "## Assumptions", "", "| Item | Value | Source |", "|---|---|---|"]
     lines += [f"| {_cell(a.name)} | {_cell(a.value)} | {_cell(a.source)} |" for a in assessment.assumptions]
     lines += ["", "## Cautions", ""]

@@ -10,7 +10,10 @@ from rich.text import Text
 from ..assessment import SiteAssessment, summary_sentence
 from ..critical_gap_estimation import CriticalGapEstimate
 from ..figures import VehicleFigures
+from ..merge_area import MergeArea
+from ..merge_operations import MergeOperations
 from ..results import AccelerationRun, GapFigures
+from ..shockwave import QueueGrowth
 from ..units import UnitSystem, convert, show, unit_symbol
 
 
@@ -223,6 +226,8 @@ def site_view(assessment: SiteAssessment, system: UnitSystem) -> RenderableType:
         )
         if policy.table.caution:
             parts.append(Text(f"Policy caution: {policy.table.caution}", style="yellow"))
+    if assessment.merge_area is not None:
+        parts += [Text(""), merge_area_view(assessment.merge_area, system)]
     assumptions = Table(title="Assumptions", title_justify="left", show_lines=False)
     assumptions.add_column("Item", no_wrap=False, ratio=2)
     assumptions.add_column("Value", ratio=2)
@@ -266,4 +271,82 @@ def critical_gap_view(estimate: CriticalGapEstimate, source: str) -> RenderableT
     table.add_row(
         "Standard deviation", "not estimated by this method" if estimate.sd is None else f"{estimate.sd:.2f} s"
     )
+    return table
+
+
+def merge_area_view(operations: MergeOperations, system: UnitSystem) -> RenderableType:
+    """Capacity-manual merge-area figures and, in breakdown, the queue."""
+    area = operations.area
+    table = Table.grid(padding=(0, 2))
+    table.add_column(style="bold")
+    table.add_column()
+    density = f"{area.density_pc_mi_ln:.1f} pc/mi/ln ({area.density_pc_km_ln:.1f} pc/km/ln)"
+    table.add_row("Merge area (HCM ch. 14)", f"LOS {area.los}, density {density}")
+    table.add_row(
+        "Flows",
+        f"mainline {area.mainline_pc_h:.0f} pc/h, ramp {area.ramp_pc_h:.0f} pc/h, P_FM {area.p_fm:.3f}, "
+        f"v12 {area.v12_pc_h:.0f} pc/h, entering influence area {area.vr12_pc_h:.0f} pc/h",
+    )
+    table.add_row("L_A (lane + taper)", show(operations.acceleration_length, "length", system))
+    for check in area.checks:
+        state = Text("exceeded", style="bold red") if check.exceeded else Text("ok", style="green")
+        table.add_row(
+            f"  {check.name}", Text.assemble(f"{check.demand_pc_h:.0f} / {check.capacity_pc_h:.0f} pc/h ", state)
+        )
+    table.add_row("Capacity lost to slow trucks", f"{operations.capacity_lost_pc_h:.0f} pc/h")
+    if operations.queue is not None:
+        queue = operations.queue
+        clears = (
+            "-"
+            if operations.history is None or operations.history.clears_at is None
+            else f"{operations.history.clears_at / 60:.0f} min"
+        )
+        table.add_row(
+            Text("Breakdown", style="bold red"),
+            f"queue back moves upstream at {show(-queue.shock_speed, 'speed', system)}, gains "
+            f"{queue.growth * 3600 * operations.veh_per_pc_mainline:.0f} veh/h; "
+            f"{show(-queue.shock_speed * 3600, 'length', system)} long after 1 h; clears after {clears}",
+        )
+    return table
+
+
+def queue_view(queue: QueueGrowth, system: UnitSystem) -> RenderableType:
+    table = Table.grid(padding=(0, 2))
+    table.add_column(style="bold")
+    table.add_column()
+    table.add_row(
+        "Arriving",
+        f"{queue.arriving.flow * 3600:.0f} veh/h at {queue.arriving.density * 1000:.1f} veh/km ({show(queue.arriving.speed, 'speed', system)})",
+    )
+    table.add_row(
+        "Queued",
+        f"{queue.queued.flow * 3600:.0f} veh/h at {queue.queued.density * 1000:.1f} veh/km ({show(queue.queued.speed, 'speed', system)})",
+    )
+    direction = "upstream" if queue.shock_speed < 0 else "downstream"
+    table.add_row(
+        "Boundary",
+        f"moves {direction} at {show(abs(queue.shock_speed), 'speed', system)} ({queue.shock_speed:+.3f} m/s)",
+    )
+    table.add_row("Queue gains", f"{queue.growth * 3600:.0f} veh/h")
+    table.add_row(
+        f"After {queue.duration / 60:.0f} min",
+        f"back of queue {show(queue.length_after, 'length', system)} upstream, {queue.stored_after:.0f} vehicles gained",
+    )
+    return table
+
+
+def area_view(area: MergeArea) -> RenderableType:
+    table = Table.grid(padding=(0, 2))
+    table.add_column(style="bold")
+    table.add_column()
+    table.add_row(
+        "Level of service",
+        f"{area.los} (influence-area density {area.density_pc_mi_ln:.1f} pc/mi/ln, {area.density_pc_km_ln:.1f} pc/km/ln)",
+    )
+    table.add_row("P_FM", f"{area.p_fm:.4f}")
+    table.add_row("v12", f"{area.v12_pc_h:.0f} pc/h")
+    table.add_row("Entering the influence area", f"{area.vr12_pc_h:.0f} pc/h")
+    for check in area.checks:
+        state = Text("exceeded", style="bold red") if check.exceeded else Text("ok", style="green")
+        table.add_row(check.name, Text.assemble(f"{check.demand_pc_h:.0f} / {check.capacity_pc_h:.0f} pc/h ", state))
     return table

@@ -1,0 +1,135 @@
+"""Merge-area operations at a site: capacity-manual density and LOS, and what breakdown costs.
+
+Joins the site's geometry and design-vehicle results to the capacity manual's
+merge method (:mod:`mergecheck.merge_area`) and, when demand exceeds what the
+section downstream carries, to the queue between the arriving and queued
+mainline states (:mod:`mergecheck.shockwave`, triangular flow-density
+relation).
+
+Conversions and assumptions, each stated in the report:
+
+* The manual's acceleration length L_A includes the taper; the site's lane
+  length (convergence point to start of taper) does not. L_A = lane + taper.
+* Heavy vehicles on the mainline take E_T = 2.0 (level) or 3.0 (rolling)
+  (HCM, from REFERENCES.md section 6).
+* Heavy design vehicles on the ramp take E_T times the ratio of the stream's
+  free-flow speed to the vehicle's speed at the end of the lane (at least
+  E_T): a vehicle at half the stream's speed holds its place in the lane for
+  twice as long. This speed-ratio equivalent is a stated assumption standing
+  in for the manual's specific-grade tables, which were not at hand; the
+  capacity lost to slow trucks is the extra passenger-car equivalents.
+* In breakdown the ramp's demand is served first and the mainline discharges
+  the rest of the downstream capacity from a queue on the congested branch of
+  a triangular relation (capacity per lane from the manual, jam density a
+  site input). The queued state is held after the peak, which slightly
+  overstates the time to clear.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from .merge_area import MergeArea, freeway_capacity_per_lane, merge_area, passenger_car_flow
+from .shockwave import QueueGrowth, QueueHistory, Triangular, queue_growth, queue_history
+from .site import Site
+
+MPH = 0.44704
+FT = 0.3048
+TRUCK_EQUIVALENT = {"level": 2.0, "rolling": 3.0}
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class RampEquivalent:
+    vehicle_id: str
+    share: float
+    equivalent: float
+    """Passenger-car equivalent used for this vehicle on the ramp. [-]"""
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class MergeOperations:
+    area: MergeArea
+    mainline_pc_h: float
+    ramp_pc_h: float
+    acceleration_length: float
+    """L_A as the manual measures it (lane plus taper). [m]"""
+    mainline_truck_equivalent: float
+    ramp_equivalents: tuple[RampEquivalent, ...]
+    capacity_lost_pc_h: float
+    """Passenger-car equivalents added by heavy ramp vehicles slower than a level-terrain truck. [pc/h]"""
+    veh_per_pc_mainline: float
+    queue: QueueGrowth | None
+    history: QueueHistory | None
+
+    @property
+    def breaks_down(self) -> bool:
+        return self.area.breaks_down
+
+
+def merge_operations(site: Site, speeds_at_lane_end: dict[str, float]) -> MergeOperations | None:
+    """The merge-area check for a site; None when the site gives no mainline flow or the lane count is outside 2-4.
+
+    Parameters
+    ----------
+    speeds_at_lane_end
+        Each design vehicle's speed at the end of the full-width lane. [m/s]
+    """
+    m = site.merge
+    if m.mainline_flow is None or not 2 <= site.lanes <= 4:
+        return None
+    e_t = TRUCK_EQUIVALENT[m.terrain]
+    mainline_pc = passenger_car_flow(m.mainline_flow * 3600, m.mainline_heavy_vehicles, e_t, m.peak_hour_factor)
+    equivalents = []
+    ramp_pc = 0.0
+    level_pc = 0.0
+    for entry in site.vehicles:
+        equivalent = 1.0
+        if entry.vehicle.category != "passenger-car":
+            speed = max(speeds_at_lane_end[entry.vehicle.id], 1.0)
+            equivalent = max(e_t, e_t * m.free_flow_speed / speed)
+        equivalents.append(RampEquivalent(vehicle_id=entry.vehicle.id, share=entry.share, equivalent=equivalent))
+        ramp_pc += site.ramp_flow * 3600 * entry.share * equivalent / m.peak_hour_factor
+        level_pc += (
+            site.ramp_flow
+            * 3600
+            * entry.share
+            * (1.0 if entry.vehicle.category == "passenger-car" else e_t)
+            / m.peak_hour_factor
+        )
+    length = site.lane_length + site.taper_length
+    area = merge_area(
+        lanes=site.lanes,
+        mainline_pc_h=mainline_pc,
+        ramp_pc_h=ramp_pc,
+        acceleration_length_ft=length / FT,
+        free_flow_speed_mph=m.free_flow_speed / MPH,
+        ramp_free_flow_speed_mph=m.ramp_free_flow_speed / MPH,
+        lanes_downstream=site.lanes_downstream,
+        ramp_lanes=m.ramp_lanes,
+    )
+    veh_per_pc = m.peak_hour_factor * (1.0 / (1.0 + m.mainline_heavy_vehicles * (e_t - 1.0)))
+    queue = history = None
+    if area.downstream.exceeded:
+        upstream = Triangular(
+            free_flow_speed=m.free_flow_speed,
+            capacity=site.lanes * freeway_capacity_per_lane(m.free_flow_speed / MPH) / 3600,
+            jam_density=site.lanes * m.jam_density,
+        )
+        discharge = max(area.downstream.capacity_pc_h - ramp_pc, 0.0) / 3600
+        arriving = upstream.free(min(mainline_pc / 3600, upstream.capacity))
+        queued = upstream.congested(min(discharge, upstream.capacity))
+        queue = queue_growth(arriving, queued, 3600.0)
+        after = upstream.free(min(mainline_pc * m.demand_after_peak / 3600, upstream.capacity))
+        history = queue_history([(m.peak_duration, arriving), (6 * 3600.0, after)], queued, step=30.0)
+    return MergeOperations(
+        area=area,
+        mainline_pc_h=mainline_pc,
+        ramp_pc_h=ramp_pc,
+        acceleration_length=length,
+        mainline_truck_equivalent=e_t,
+        ramp_equivalents=tuple(equivalents),
+        capacity_lost_pc_h=ramp_pc - level_pc,
+        veh_per_pc_mainline=veh_per_pc,
+        queue=queue,
+        history=history,
+    )
