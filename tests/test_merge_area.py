@@ -9,7 +9,7 @@ import numpy as np
 import pytest
 
 from mergecheck.merge_area import level_of_service, merge_influence_share, passenger_car_flow
-from mergecheck.shockwave import Greenshields, TrafficState, Triangular, queue_history, shock_speed
+from mergecheck.shockwave import Greenshields, Triangular, queue_history, shock_speed
 from mergecheck.units import parse_quantity
 
 
