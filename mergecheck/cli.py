@@ -19,13 +19,14 @@ from rich.console import Console
 from .assessment import assess
 from .critical_gap_estimation import ESTIMATORS, read_observations
 from .errors import InputError
+from .exception import design_exception
 from .figures import vehicle_figures
 from .headways import HEADWAY_MODELS, headway_model, mean_wait
 from .inputs import MAX_GRADE, ProfileFile, build_profile, read_yaml
 from .merge_area import merge_area, passenger_car_flow
 from .merge_operations import TRUCK_EQUIVALENT
 from .profile import VerticalProfile
-from .report import json_report, markdown, terminal
+from .report import html, json_report, markdown, terminal
 from .results import AccelerationRun, GapFigures
 from .shockwave import TrafficState, queue_growth
 from .site import SiteInput, load_site
@@ -68,6 +69,12 @@ def build_parser() -> argparse.ArgumentParser:
         "--json", nargs="?", const="-", metavar="FILE", help="write JSON (SI values) to FILE, or to standard output"
     )
     check.add_argument("--markdown", metavar="FILE", help="write the report as Markdown to FILE")
+    check.add_argument("--html", metavar="FILE", help="write a self-contained HTML report with figures to FILE")
+    check.add_argument(
+        "--exception",
+        action="store_true",
+        help="add the design-exception section even when every vehicle meets the check",
+    )
     check.add_argument(
         "--monte-carlo",
         type=int,
@@ -201,8 +208,14 @@ def _check(args: argparse.Namespace, out: Console) -> int:
     documents: list[tuple[str, str]] = []
     if args.json is not None:
         documents.append((args.json, json_report.dumps(json_report.site_json(assessment))))
+    exception = None
+    if args.exception or assessment.verdict == "short":
+        if args.html is not None or args.markdown is not None:
+            exception = design_exception(assessment)
     if args.markdown is not None:
-        documents.append((args.markdown, markdown.site_markdown(assessment, args.units)))
+        documents.append((args.markdown, markdown.site_markdown(assessment, args.units, exception)))
+    if args.html is not None:
+        documents.append((args.html, html.site_html(assessment, args.units, exception)))
     files = [(path, text) for path, text in documents if path != "-"]
     for path, _ in files:
         if not Path(path).resolve().parent.is_dir():
@@ -373,6 +386,9 @@ def write_whole(path: str, text: str) -> None:
     try:
         with os.fdopen(handle, "w", encoding="utf-8") as stream:
             stream.write(text)
+        umask = os.umask(0)
+        os.umask(umask)
+        os.chmod(temporary, 0o666 & ~umask)  # the permissions of a file written the ordinary way
         os.replace(temporary, target)
     except BaseException:
         Path(temporary).unlink(missing_ok=True)

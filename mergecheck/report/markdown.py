@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from ..assessment import SiteAssessment, summary_sentence
+from ..exception import DesignException
 from ..units import UnitSystem, convert, show, unit_symbol
 
 
@@ -15,7 +16,7 @@ def _num(value: float | None, kind: str, system: UnitSystem) -> str:
     return "-" if value is None else f"{convert(value, kind, system):.{0 if kind == 'length' else 1}f}"
 
 
-def site_markdown(assessment: SiteAssessment, system: UnitSystem) -> str:
+def site_markdown(assessment: SiteAssessment, system: UnitSystem, exception: DesignException | None = None) -> str:
     site = assessment.site
     v_unit, l_unit = unit_symbol("speed", system), unit_symbol("length", system)
     lines = [
@@ -136,8 +137,60 @@ def site_markdown(assessment: SiteAssessment, system: UnitSystem) -> str:
                 f"{show(-queue.shock_speed, 'speed', system)}, the queue gains {queue.growth * 3600 * operations.veh_per_pc_mainline:.0f} veh/h, "
                 f"stretches {show(-queue.shock_speed * 3600, 'length', system)} after one hour, and clears {clears} after the peak begins.",
             ]
+    if exception is not None:
+        lines += _exception_lines(assessment, exception, system)
     lines += ["", "## Assumptions", "", "| Item | Value | Source |", "|---|---|---|"]
     lines += [f"| {_cell(a.name)} | {_cell(a.value)} | {_cell(a.source)} |" for a in assessment.assumptions]
     lines += ["", "## Cautions", ""]
     lines += [f"- {c}" for c in assessment.cautions]
     return "\n".join(lines) + "\n"
+
+
+def _exception_lines(assessment: SiteAssessment, exception: DesignException, system: UnitSystem) -> list[str]:
+    if exception.policy_deficit is None:
+        short_of_policy = "no policy value applies"
+    elif exception.policy_deficit > 0:
+        short_of_policy = show(exception.policy_deficit, "length", system)
+    else:
+        short_of_policy = "not short of policy (the computed needs govern)"
+    lines = [
+        "",
+        "## Design exception",
+        "",
+        "The figures of this report are in the HTML version (`--html`); they are omitted here.",
+        "",
+        "| Item | Value |",
+        "|---|---|",
+        f"| Policy minimum acceleration length | {show(exception.policy_length, 'length', system)} |",
+        f"| Length provided | {show(exception.provided_length, 'length', system)} |",
+        f"| Short of policy by | {short_of_policy} |",
+        "",
+        "Operational consequences at the design hour:",
+        "",
+        "| Vehicle | Speed differential at end of lane | Merged by end of lane | Forced merges in taper (veh/h) | Stops (veh/h) |",
+        "|---|--:|--:|--:|--:|",
+    ]
+    for v in assessment.vehicles:
+        lines.append(
+            f"| `{v.vehicle.id}` | {show(v.speed_differential_at_lane_end, 'speed', system)} | {v.merge.by_lane_end:.1%} "
+            f"| {v.merge.forced_merges_per_h:.1f} | {v.merge.stops_per_h:.1f} |"
+        )
+    lines += [
+        "",
+        "Mitigation options, each computed by rerunning the assessment on the modified layout:",
+        "",
+        "| Option | Change | Result | Governing need | Note |",
+        "|---|---|---|---|---|",
+    ]
+    for m in exception.mitigations:
+        if m.assessment is None:
+            result, need = "-", "-"
+        else:
+            g = m.assessment.governing
+            result = f"**{m.assessment.verdict}**"
+            need = f"`{g.vehicle.id}`: " + (
+                "no length suffices" if g.length_needed is None else show(g.length_needed, "length", system)
+            )
+        lines.append(f"| {m.name} | {_cell(m.change)} | {result} | {need} | {_cell(m.note)} |")
+    lines += ["", f"> {exception.sign_off}"]
+    return lines

@@ -1,0 +1,49 @@
+"""HTML renderer: one self-contained page (inline styles, inline SVG figures, no scripts or fonts).
+
+Built from a Jinja2 template with automatic escaping, so every string that
+comes from a user's file is escaped; only the SVG figures drawn here are
+marked safe. Reads results only.
+"""
+
+from __future__ import annotations
+
+import jinja2
+
+from .. import __version__
+from ..assessment import SiteAssessment, summary_sentence
+from ..exception import DesignException
+from ..units import UnitSystem, show
+from . import plots
+
+_ENVIRONMENT = jinja2.Environment(
+    loader=jinja2.PackageLoader("mergecheck.report", "templates"),
+    autoescape=True,
+    undefined=jinja2.StrictUndefined,
+    trim_blocks=True,
+    lstrip_blocks=True,
+)
+
+
+def site_html(assessment: SiteAssessment, system: UnitSystem, exception: DesignException | None) -> str:
+    """The report page."""
+
+    def fmt(value: float | None, kind: str) -> str:
+        return show(value, kind, system)
+
+    figures = {
+        "layout": plots.layout_figure(assessment, system),
+        "speed": plots.speed_figure(assessment, system),
+        "merge": plots.merge_figure(assessment, system),
+        "length": plots.length_figure(assessment, system),
+    }
+    template = _ENVIRONMENT.get_template("report.html.j2")
+    return template.render(
+        a=assessment,
+        site=assessment.site,
+        summary=summary_sentence(assessment, system),
+        figures=figures,
+        exception=exception,
+        fmt=fmt,
+        system=system,
+        version=__version__,
+    )
