@@ -13,7 +13,6 @@ from collections.abc import Sequence
 from pathlib import Path
 from typing import NoReturn
 
-from pydantic import ValidationError
 from rich.console import Console
 
 from .assessment import assess
@@ -22,17 +21,17 @@ from .errors import InputError
 from .exception import design_exception
 from .figures import vehicle_figures
 from .headways import HEADWAY_MODELS, headway_model, mean_wait
-from .inputs import MAX_GRADE, ProfileFile, build_profile, read_yaml
+from .inputs import MAX_GRADE, ProfileFile, build_profile, read_yaml, validated
 from .merge_area import merge_area, passenger_car_flow
 from .merge_operations import TRUCK_EQUIVALENT
 from .profile import VerticalProfile
-from .report import html, json_report, markdown, terminal
+from .report import json_report, markdown, terminal
 from .results import AccelerationRun, GapFigures
 from .shockwave import TrafficState, queue_growth
 from .site import SiteInput, load_site
 from .trajectory import accelerate
 from .units import parse_quantity
-from .vehicles import load_bundled, load_vehicle, pydantic_error
+from .vehicles import load_bundled, load_vehicle
 
 EXIT_OK, EXIT_SHORT, EXIT_INPUT = 0, 1, 2
 
@@ -215,6 +214,8 @@ def _check(args: argparse.Namespace, out: Console) -> int:
     if args.markdown is not None:
         documents.append((args.markdown, markdown.site_markdown(assessment, args.units, exception)))
     if args.html is not None:
+        from .report import html  # matplotlib is slow to import: only when a page is asked for
+
         documents.append((args.html, html.site_html(assessment, args.units, exception)))
     files = [(path, text) for path, text in documents if path != "-"]
     for path, _ in files:
@@ -365,13 +366,7 @@ def build_profile_from_grade(text: str) -> VerticalProfile:
 
 
 def load_profile_file(path: str) -> tuple[VerticalProfile, float]:
-    raw = read_yaml(path)
-    if not isinstance(raw, dict):
-        raise InputError(path, "", "a profile file must be a mapping with a 'profile' list")
-    try:
-        data = ProfileFile.model_validate(raw)
-    except ValidationError as error:
-        raise pydantic_error(error, path) from None
+    data = validated(read_yaml(path), ProfileFile, path, "a profile file (with a 'profile' list)")
     elevation = 0.0
     if data.elevation is not None:
         elevation = parse_quantity(data.elevation, "length", source=path, field="elevation")

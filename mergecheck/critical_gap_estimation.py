@@ -44,7 +44,8 @@ from pathlib import Path
 
 import numpy as np
 from numpy.typing import NDArray
-from scipy import optimize, stats
+from scipy import optimize
+from scipy.special import ndtr
 
 from .errors import InputError
 
@@ -147,8 +148,8 @@ def _seconds(text: str | None, path: str, line: int, column: str, *, required: b
 def _log_likelihood(params: FloatArray, accepted: FloatArray, rejected: FloatArray) -> float:
     mu, log_sigma = params
     sigma = math.exp(log_sigma)
-    upper = stats.norm.cdf((np.log(accepted) - mu) / sigma)
-    lower = np.where(rejected > 0, stats.norm.cdf((np.log(np.maximum(rejected, 1e-300)) - mu) / sigma), 0.0)
+    upper = ndtr((np.log(accepted) - mu) / sigma)
+    lower = np.where(rejected > 0, ndtr((np.log(np.maximum(rejected, 1e-300)) - mu) / sigma), 0.0)
     return float(np.sum(np.log(np.maximum(upper - lower, 1e-300))))  # Eq. (1)
 
 

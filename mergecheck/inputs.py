@@ -6,14 +6,16 @@ Shared by the ``accel`` command's profile file and the site file.
 from __future__ import annotations
 
 from pathlib import Path
-from typing import Any
+from typing import Any, TypeVar
 
 import yaml
-from pydantic import BaseModel, ConfigDict, Field
+from pydantic import BaseModel, ConfigDict, Field, ValidationError
 
 from .errors import InputError
 from .profile import GradeChange, VerticalProfile
 from .units import parse_quantity
+
+Model = TypeVar("Model", bound=BaseModel)
 
 MAX_GRADE = 0.10
 """Steepest grade accepted. [fraction] Ramp grades above 8 % are outside the
@@ -84,13 +86,40 @@ def build_profile(points: list[GradePoint], source: str, field: str) -> Vertical
     return VerticalProfile(initial_grade=grades[0], changes=changes)
 
 
+def parse_yaml(text: str, source: str) -> Any:
+    """YAML text through the safe loader; malformed text raises :class:`InputError`."""
+    try:
+        return yaml.safe_load(text)
+    except yaml.YAMLError as error:
+        raise InputError(source, "", f"not valid YAML: {error}") from None
+
+
 def read_yaml(path: str) -> Any:
     """Load a YAML file safely; unreadable or malformed files raise :class:`InputError`."""
     try:
         text = Path(path).read_text(encoding="utf-8")
     except OSError as error:
         raise InputError(path, "", f"cannot read the file: {error.strerror}") from None
+    return parse_yaml(text, path)
+
+
+def pydantic_error(error: ValidationError, source: str) -> InputError:
+    """The first pydantic error as an :class:`InputError` naming the field path."""
+    first = error.errors()[0]
+    path = ".".join(str(part) for part in first["loc"])
+    message = first["msg"]
+    if first["type"] == "extra_forbidden":
+        message = "unknown field"
+    elif first["type"] == "missing":
+        message = "required field is missing"
+    return InputError(source, path, message)
+
+
+def validated(raw: Any, model: type[Model], source: str, what: str) -> Model:
+    """Validate loaded YAML into a pydantic model; errors name the file, the field path and the rule."""
+    if not isinstance(raw, dict):
+        raise InputError(source, "", f"{what} must be a mapping of fields")
     try:
-        return yaml.safe_load(text)
-    except yaml.YAMLError as error:
-        raise InputError(path, "", f"not valid YAML: {error}") from None
+        return model.model_validate(raw)
+    except ValidationError as error:
+        raise pydantic_error(error, source) from None

@@ -23,12 +23,11 @@ from dataclasses import dataclass
 from pathlib import Path
 
 import numpy as np
-import yaml
-from pydantic import BaseModel, ConfigDict, Field, ValidationError, model_validator
+from pydantic import BaseModel, ConfigDict, Field, model_validator
 
 from .errors import InputError
+from .inputs import parse_yaml, validated
 from .units import parse_quantity
-from .vehicles import pydantic_error
 
 BUNDLED_POLICY = "policy-aashto-2011-us.yaml"
 FLAT_GRADE_LIMIT = 0.03
@@ -153,14 +152,7 @@ def load_policy(path: str | None) -> PolicyTable:
             raise InputError(path, "", f"cannot read the policy table: {error.strerror}") from None
         origin = path
     source = path or BUNDLED_POLICY
-    try:
-        raw = yaml.safe_load(text)
-    except yaml.YAMLError as error:
-        raise InputError(source, "", f"not valid YAML: {error}") from None
-    try:
-        data = _PolicyFile.model_validate(raw)
-    except ValidationError as error:
-        raise pydantic_error(error, source) from None
+    data = validated(parse_yaml(text, source), _PolicyFile, source, "a policy table")
     speed = parse_quantity(f"1 {data.units.speed}", "speed", source=source, field="units.speed")
     length = parse_quantity(f"1 {data.units.length}", "length", source=source, field="units.length")
     numeric = [i for i, s in enumerate(data.ramp_speeds) if s != "stop"]

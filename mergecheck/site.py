@@ -17,14 +17,14 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import Literal
 
-from pydantic import BaseModel, ConfigDict, Field, ValidationError
+from pydantic import BaseModel, ConfigDict, Field
 
 from .errors import InputError
 from .gap_acceptance import CriticalGap, default_critical_gaps
-from .inputs import GradePoint, build_profile, read_yaml
+from .inputs import GradePoint, build_profile, read_yaml, validated
 from .profile import VerticalProfile
 from .units import parse_quantity
-from .vehicles import DesignVehicle, bundled_ids, load_vehicle, pydantic_error
+from .vehicles import DesignVehicle, bundled_ids, load_vehicle
 
 SHARE_TOLERANCE = 1e-3
 
@@ -320,13 +320,7 @@ class Site:
 
 def load_site(path: str) -> Site:
     """Read, validate and convert a site file."""
-    raw = read_yaml(path)
-    if not isinstance(raw, dict):
-        raise InputError(path, "", "a site file must be a mapping of fields (name, mainline, ramp, geometry, ...)")
-    try:
-        data = SiteInput.model_validate(raw)
-    except ValidationError as error:
-        raise pydantic_error(error, path) from None
+    data = validated(read_yaml(path), SiteInput, path, "a site file (name, mainline, ramp, geometry, ...)")
     return site_from_input(data, path)
 
 

@@ -35,12 +35,12 @@ from importlib.resources.abc import Traversable
 from pathlib import Path
 from typing import Any, Literal
 
-import yaml
-from pydantic import BaseModel, ConfigDict, Field, ValidationError
+from pydantic import BaseModel, ConfigDict, Field
 
 from .acceleration import AccelerationModel, LinearDecreasing, PowerLimited, Tabulated, model_entry
 from .dynamics import PowerLimitedVehicle
 from .errors import InputError
+from .inputs import parse_yaml, validated
 from .units import parse_quantity
 
 Category = Literal["passenger-car", "truck", "bus", "recreational"]
@@ -183,16 +183,7 @@ def load_bundled() -> list[DesignVehicle]:
 
 def parse_vehicle(text: str, source: str) -> DesignVehicle:
     """Validate a profile's YAML text into a :class:`DesignVehicle`."""
-    try:
-        raw = yaml.safe_load(text)
-    except yaml.YAMLError as error:
-        raise InputError(source, "", f"not valid YAML: {error}") from None
-    if not isinstance(raw, dict):
-        raise InputError(source, "", "a vehicle profile must be a mapping of fields")
-    try:
-        data = _ProfileFile.model_validate(raw)
-    except ValidationError as error:
-        raise pydantic_error(error, source) from None
+    data = validated(parse_yaml(text, source), _ProfileFile, source, "a vehicle profile")
     try:
         entry = model_entry(data.model)
     except KeyError as error:
@@ -226,18 +217,6 @@ def parse_vehicle(text: str, source: str) -> DesignVehicle:
         origin=source,
         physical=physical,
     )
-
-
-def pydantic_error(error: ValidationError, source: str) -> InputError:
-    """The first pydantic error as an :class:`InputError` naming the field path."""
-    first = error.errors()[0]
-    path = ".".join(str(part) for part in first["loc"])
-    message = first["msg"]
-    if first["type"] == "extra_forbidden":
-        message = "unknown field"
-    elif first["type"] == "missing":
-        message = "required field is missing"
-    return InputError(source, path, message)
 
 
 def _forbid(source: str, data: _ProfileFile, *, capability: bool, table: bool) -> None:
