@@ -9,10 +9,10 @@ length on grade to the length on the level) in blocks by grade range.
 Interpolation rule (stated in every report): bilinear in highway design speed
 and ramp controlling speed between the four surrounding cells; the "stop"
 column is interpolated in highway design speed only; no extrapolation beyond
-the table, and no value where any of the cells used is blank. Grade factors
-are interpolated the same way. A grade between the flat-grade limit and the
-lowest block, or beyond the blocks given, has no factor and no policy value
-is given for it.
+the table, and no value where any of the cells used is blank. Grades within
++/- 3 % take the flat-grade value; grade factors (upgrade and downgrade
+blocks) are interpolated the same way within their block; a grade between or
+beyond the blocks has no factor, and no policy value is given for it.
 """
 
 from __future__ import annotations
@@ -250,39 +250,26 @@ def policy_minimum(
         Average grade over the acceleration length. [fraction]
     """
     merge = _linear(table.highway_speeds, table.merge_speeds, design_speed)
+
+    def value(minimum: float | None, level: float | None, factor: float | None, note: str) -> PolicyValue:
+        return PolicyValue(table, minimum, level, factor, grade, merge, note)
+
     if controlling_speed is None:
         if table.stop_lengths is None:
-            return PolicyValue(
-                table, None, None, None, grade, merge, "the table has no column for a ramp that starts from a stop"
-            )
+            return value(None, None, None, "the table has no column for a ramp that starts from a stop")
         level = _linear(table.highway_speeds, table.stop_lengths, design_speed)
     else:
         level = _bilinear(table.highway_speeds, table.ramp_speeds, table.lengths, design_speed, controlling_speed)
     if level is None:
-        return PolicyValue(
-            table, None, None, None, grade, merge, "the combination of highway and ramp speeds is outside the table"
-        )
-    if grade < FLAT_GRADE_LIMIT:
-        note = (
-            "flat-grade value (grade below 3 %)"
-            if grade > -FLAT_GRADE_LIMIT
-            else "flat-grade value; the table's downgrade factors (below 1) were not applied"
-        )
-        return PolicyValue(table, level, level, 1.0, grade, merge, note)
+        return value(None, None, None, "the combination of highway and ramp speeds is outside the table")
     for block in table.grade_factors:
         if block.min_grade - 1e-9 <= grade <= block.max_grade + 1e-9:
             if controlling_speed is None:
-                return PolicyValue(
-                    table, None, level, None, grade, merge, "the grade factors have no column for a stop"
-                )
+                return value(None, level, None, "the grade factors have no column for a stop")
             factor = _bilinear(block.highway_speeds, block.ramp_speeds, block.factors, design_speed, controlling_speed)
             if factor is None:
-                return PolicyValue(
-                    table, None, level, None, grade, merge, "no grade factor for this combination of speeds"
-                )
-            return PolicyValue(
-                table, level * factor, level, factor, grade, merge, f"level value times grade factor {factor:.2f}"
-            )
-    return PolicyValue(
-        table, None, level, None, grade, merge, f"no grade factors for a {grade:.1%} upgrade in this table"
-    )
+                return value(None, level, None, "no grade factor for this combination of speeds")
+            return value(level * factor, level, factor, f"level value times grade factor {factor:.2f}")
+    if abs(grade) < FLAT_GRADE_LIMIT:
+        return value(level, level, 1.0, "flat-grade value (grade within 3 %)")
+    return value(None, level, None, f"no grade factors for a {grade:+.1%} grade in this table")

@@ -6,9 +6,11 @@ Sources are named beside each check; values recalled from memory say so.
 from __future__ import annotations
 
 import math
+from pathlib import Path
 
 import numpy as np
 import pytest
+import yaml
 from scipy.optimize import brentq
 
 from mergecheck.profile import VerticalProfile
@@ -16,6 +18,7 @@ from mergecheck.trajectory import accelerate, equilibrium_speed
 from mergecheck.vehicles import bundled_ids, load_vehicle
 
 G = 9.80665
+MPH = 0.44704
 
 
 def test_required_ids_are_bundled() -> None:
@@ -160,3 +163,33 @@ def test_passenger_car_capability_caps_driver_choice() -> None:
     speeds = np.linspace(0.0, 40.0, 81)
     for grade in (-0.06, 0.0, 0.06, 0.10):
         assert np.all(car.model.acceleration(speeds, grade) <= car.physical.acceleration(speeds, grade) + 1e-12)
+
+
+
+def _table(name: str) -> list[list[float]]:
+    data = yaml.safe_load((Path(__file__).parent / "data" / "green_book_2011_acceleration_lengths.yaml").read_text())
+    return data[name]
+
+
+def test_passenger_car_steep_upgrade_and_downgrade_factors() -> None:
+    """Beyond the calibration: the Green Book 2011 5-6 % upgrade and 3-4 % downgrade factors (FROM MEMORY,
+    about 50 % sure; tests/data). The model was calibrated on level grade and 3-4 % upgrades only; 20 % per
+    factor is the tolerance for an out-of-sample mechanics-based model against recalled 1954-era factors.
+    On downgrades the model (drivers take about half the grade force as extra acceleration) gives 0.71 to
+    0.80 where the recalled factors are 0.6 to 0.7: a known, conservative gap, hence 35 % there."""
+    car = load_vehicle("passenger-car").model
+    merge = {40: 31, 50: 39, 60: 47, 70: 53}
+    initial = [18, 26, 36, 44]  # ramp design speeds 20, 30, 40, 50 mph
+    level = VerticalProfile.constant(0.0)
+    for row in _table("grade_factors_5_6"):
+        for v0, factor in zip(initial, row[1:], strict=False):
+            flat = accelerate(car, level, v0 * MPH, merge[row[0]] * MPH).distance
+            steep = accelerate(car, VerticalProfile.constant(0.055), v0 * MPH, merge[row[0]] * MPH).distance
+            assert flat is not None and steep is not None
+            assert steep / flat == pytest.approx(factor, rel=0.20), (row[0], v0)
+    for highway, factor in _table("downgrade_factors_3_4"):
+        for v0 in initial[: {40: 2, 50: 3}.get(int(highway), 4)]:
+            flat = accelerate(car, level, v0 * MPH, merge[int(highway)] * MPH).distance
+            down = accelerate(car, VerticalProfile.constant(-0.035), v0 * MPH, merge[int(highway)] * MPH).distance
+            assert flat is not None and down is not None
+            assert down / flat == pytest.approx(factor, rel=0.35), (highway, v0)

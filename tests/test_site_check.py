@@ -165,4 +165,8 @@ def test_grade_factor_applied_within_block() -> None:
     assert value.grade_factor == pytest.approx(1.5)
     assert value.minimum_length == pytest.approx(910 * FT * 1.5)
     steep = policy_minimum(load_policy(None), 60 * MPH, 30 * MPH, 0.055)
-    assert steep.minimum_length is None and "no grade factors" in steep.note
+    assert steep.grade_factor == pytest.approx(1.9)  # 5-6 % block (FROM MEMORY, about 50 % sure)
+    between = policy_minimum(load_policy(None), 60 * MPH, 30 * MPH, 0.045)
+    assert between.minimum_length is None and "no grade factors" in between.note
+    down = policy_minimum(load_policy(None), 60 * MPH, 30 * MPH, -0.035)
+    assert down.minimum_length == pytest.approx(910 * FT * 0.6)
