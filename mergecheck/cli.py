@@ -14,8 +14,10 @@ from pathlib import Path
 from typing import NoReturn
 
 from rich.console import Console
+from rich.progress import MofNCompleteColumn, Progress
 
 from .assessment import assess
+from .batch import assess_all, ranked, read_entries, summarize
 from .critical_gap_estimation import ESTIMATORS, read_observations
 from .errors import InputError
 from .exception import design_exception
@@ -25,10 +27,11 @@ from .inputs import MAX_GRADE, ProfileFile, build_profile, read_yaml, validated
 from .merge_area import merge_area, passenger_car_flow
 from .merge_operations import TRUCK_EQUIVALENT
 from .profile import VerticalProfile
-from .report import json_report, markdown, terminal
+from .report import csv_report, json_report, markdown, terminal
 from .results import AccelerationRun, GapFigures
 from .shockwave import TrafficState, queue_growth
 from .site import SiteInput, load_site
+from .sweep import parse_range, sweep
 from .trajectory import accelerate
 from .units import parse_quantity
 from .vehicles import load_bundled, load_vehicle
@@ -83,6 +86,22 @@ def build_parser() -> argparse.ArgumentParser:
     )
 
     commands.add_parser("schema", help="print the JSON Schema of the site file")
+
+    batch = commands.add_parser("batch", help="assess many sites: a folder of site files, a YAML list or a CSV")
+    batch.add_argument("input", help="folder of site files, YAML file with a list of sites, or CSV (one site a row)")
+    batch.add_argument("--units", choices=["si", "us"], default="si", help="unit system for display")
+    batch.add_argument("--json", metavar="FILE", help="write every site's full check (SI) to FILE")
+    batch.add_argument("--csv", metavar="FILE", help="write one row per site to FILE")
+    batch.add_argument("--markdown", metavar="FILE", help="write the corridor report to FILE")
+    batch.add_argument("--workers", type=int, help="worker processes (default: all cores)")
+
+    vary = commands.add_parser("sweep", help="rerun one site across a range of one input")
+    vary.add_argument("site", help="site file (YAML)")
+    vary.add_argument(
+        "--vary", required=True, help="FIELD=START:STOP:STEP with units, e.g. 'lane_length=200 m:600 m:50 m'"
+    )
+    vary.add_argument("--units", choices=["si", "us"], default="si", help="unit system for display")
+    vary.add_argument("--json", action="store_true", help="write JSON (SI values) to standard output")
 
     gaps = commands.add_parser("gaps", help="probability, rate and wait for gaps of a given length in one lane")
     gaps.add_argument("--flow", required=True, help="flow in the lane, e.g. '1400 veh/h'")
@@ -153,6 +172,10 @@ def main(argv: Sequence[str] | None = None) -> int:
                 return _queue(args, stdout)
             case "critical-gap":
                 return _critical_gap(args, stdout)
+            case "batch":
+                return _batch(args, stdout, stderr)
+            case "sweep":
+                return _sweep(args, stdout)
             case "schema":
                 sys.stdout.write(json_report.dumps(site_schema()))
                 return EXIT_OK
@@ -347,6 +370,49 @@ def _queue(args: argparse.Namespace, out: Console) -> int:
         sys.stdout.write(json_report.dumps(json_report.queue_json(result)))
     else:
         out.print(terminal.queue_view(result, args.units))
+    return EXIT_OK
+
+
+def _batch(args: argparse.Namespace, out: Console, err: Console) -> int:
+    if args.workers is not None and not 1 <= args.workers <= 64:
+        raise InputError("command line", "--workers", "must lie between 1 and 64")
+    outputs = [
+        (flag, path)
+        for flag, path in (("--json", args.json), ("--csv", args.csv), ("--markdown", args.markdown))
+        if path
+    ]
+    for flag, path in outputs:
+        if not Path(path).resolve().parent.is_dir():
+            raise InputError("command line", flag, f"the folder for {path} does not exist")
+    entries = read_entries(args.input)
+    if err.is_terminal:  # a progress bar on a terminal only; nothing extra when piped
+        with Progress(*Progress.get_default_columns(), MofNCompleteColumn(), console=err, transient=True) as progress:
+            task = progress.add_task("Assessing sites", total=len(entries))
+            results = assess_all(entries, workers=args.workers, tick=lambda: progress.advance(task))
+    else:
+        results = assess_all(entries, workers=args.workers)
+    results = ranked(results)
+    summary = summarize(results)
+    documents = {
+        "--json": lambda: json_report.dumps(json_report.batch_json(results, summary)),
+        "--csv": lambda: csv_report.batch_csv(results, args.units),
+        "--markdown": lambda: markdown.batch_markdown(results, summary, args.units),
+    }
+    for flag, path in outputs:
+        write_whole(path, documents[flag]())
+    out.print(terminal.batch_view(results, summary, args.units))
+    if summary.unreadable:
+        return EXIT_INPUT
+    return EXIT_SHORT if summary.short else EXIT_OK
+
+
+def _sweep(args: argparse.Namespace, out: Console) -> int:
+    field, _, values = parse_range(args.vary)
+    result = sweep(load_site(args.site), field, values)
+    if args.json:
+        sys.stdout.write(json_report.dumps(json_report.sweep_json(result)))
+    else:
+        out.print(terminal.sweep_view(result, args.units))
     return EXIT_OK
 
 

@@ -165,7 +165,6 @@ def test_passenger_car_capability_caps_driver_choice() -> None:
         assert np.all(car.model.acceleration(speeds, grade) <= car.physical.acceleration(speeds, grade) + 1e-12)
 
 
-
 def _table(name: str) -> list[list[float]]:
     data = yaml.safe_load((Path(__file__).parent / "data" / "green_book_2011_acceleration_lengths.yaml").read_text())
     return data[name]

@@ -6,6 +6,7 @@ import json
 from typing import Any
 
 from ..assessment import SiteAssessment, VehicleAssessment
+from ..batch import BatchResult, BatchSummary
 from ..critical_gap_estimation import CriticalGapEstimate
 from ..figures import VehicleFigures
 from ..gap_acceptance import CriticalGap
@@ -13,6 +14,7 @@ from ..merge_area import MergeArea
 from ..merge_operations import MergeOperations
 from ..results import AccelerationRun, GapFigures
 from ..shockwave import QueueGrowth
+from ..sweep import Sweep
 
 
 def _number(value: float | None, digits: int = 6) -> float | None:
@@ -255,3 +257,44 @@ def merge_area_json(operations: MergeOperations | None) -> dict[str, Any] | None
             "queue_clears_after_s": None if operations.history is None else _number(operations.history.clears_at, 1),
         }
     return document
+
+
+def batch_json(results: list[BatchResult], summary: BatchSummary) -> dict[str, Any]:
+    """The ``batch --json`` document: the summary, then every site ranked worst first with its full check."""
+    return {
+        "summary": {
+            "sites": summary.total,
+            "meets": summary.meets,
+            "short": summary.short,
+            "unreadable": summary.unreadable,
+            "cannot_reach": summary.cannot_reach,
+            "short_by_governing_vehicle": summary.short_by_vehicle,
+        },
+        "sites": [
+            {
+                "rank": rank,
+                "input": r.label,
+                "error": r.error,
+                "check": None if r.assessment is None else site_json(r.assessment),
+            }
+            for rank, r in enumerate(results, start=1)
+        ],
+    }
+
+
+def sweep_json(result: Sweep) -> dict[str, Any]:
+    return {
+        "field": result.field,
+        "points": [
+            {
+                "value_si": p.value,
+                "verdict": p.assessment.verdict,
+                "verdict_changes": p.verdict_changes,
+                "governing_vehicle": p.assessment.governing.vehicle.id,
+                "length_needed_m": _number(p.assessment.governing.length_needed, 3),
+                "deficit_m": _number(p.assessment.governing.deficit, 3),
+                "merge_probability_by_lane_end": _number(p.assessment.governing.merge.by_lane_end),
+            }
+            for p in result.points
+        ],
+    }

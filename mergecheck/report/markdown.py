@@ -3,8 +3,12 @@
 from __future__ import annotations
 
 from ..assessment import SiteAssessment, summary_sentence
+from ..batch import BatchResult, BatchSummary
+from ..cautions import CAUTIONS
 from ..exception import DesignException
 from ..units import UnitSystem, convert, show, unit_symbol
+from .table_rows import batch_row
+from .wording import mitigation_change
 
 
 def _cell(text: object) -> str:
@@ -191,6 +195,37 @@ def _exception_lines(assessment: SiteAssessment, exception: DesignException, sys
             need = f"`{g.vehicle.id}`: " + (
                 "no length suffices" if g.length_needed is None else show(g.length_needed, "length", system)
             )
-        lines.append(f"| {m.name} | {_cell(m.change)} | {result} | {need} | {_cell(m.note)} |")
+        lines.append(f"| {m.name} | {mitigation_change(m, system)} | {result} | {need} | {_cell(m.note)} |")
     lines += ["", f"> {exception.sign_off}"]
     return lines
+
+
+def batch_markdown(results: list[BatchResult], summary: BatchSummary, system: UnitSystem) -> str:
+    """A corridor report: the summary, then every site ranked worst first."""
+    l_unit, v_unit = unit_symbol("length", system), unit_symbol("speed", system)
+    lines = [
+        "# Corridor screening: acceleration lanes",
+        "",
+        f"{summary.total} sites: {summary.meets} meet, {summary.short} short "
+        f"({summary.cannot_reach} where the governing vehicle never reaches merge speed), {summary.unreadable} unreadable.",
+        "",
+        "Short sites by governing vehicle: "
+        + ("; ".join(f"`{v}` {n}" for v, n in summary.short_by_vehicle.items()) or "none"),
+        "",
+        f"| # | Site | Verdict | Governing vehicle | Needed ({l_unit}) | Available ({l_unit}) | Deficit ({l_unit}) "
+        f"| Policy minimum ({l_unit}) | Differential at end of lane ({v_unit}) | Merged by end of lane | LOS |",
+        "|--:|---|---|---|--:|--:|--:|--:|--:|--:|---|",
+    ]
+    for rank, result in enumerate(results, start=1):
+        row = batch_row(rank, result, system)
+        if result.assessment is None:
+            lines.append(f"| {rank} | {_cell(result.label)} | **unreadable**: {_cell(row['error'])} | | | | | | | | |")
+            continue
+        lines.append(
+            f"| {rank} | {_cell(row['site'])} | **{row['verdict']}** | `{row['governing_vehicle']}` ({row['governing_verdict']}) "
+            f"| {row['length_needed']} | {row['available']} | {row['deficit'] or '-'} | {row['policy_minimum'] or '-'} "
+            f"| {row['speed_differential_at_lane_end']} | {float(row['merged_by_lane_end']):.1%} | {row['los'] or '-'} |"
+        )
+    lines += ["", "## Cautions", ""]
+    lines += [f"- {c}" for c in CAUTIONS]
+    return "\n".join(lines) + "\n"

@@ -8,13 +8,16 @@ from rich.table import Table
 from rich.text import Text
 
 from ..assessment import SiteAssessment, summary_sentence
+from ..batch import BatchResult, BatchSummary
 from ..critical_gap_estimation import CriticalGapEstimate
 from ..figures import VehicleFigures
 from ..merge_area import MergeArea
 from ..merge_operations import MergeOperations
 from ..results import AccelerationRun, GapFigures
 from ..shockwave import QueueGrowth
+from ..sweep import Sweep
 from ..units import UnitSystem, convert, show, unit_symbol
+from .table_rows import batch_row
 
 
 def _table_interval(length: float, system: UnitSystem) -> float:
@@ -349,4 +352,74 @@ def area_view(area: MergeArea) -> RenderableType:
     for check in area.checks:
         state = Text("exceeded", style="bold red") if check.exceeded else Text("ok", style="green")
         table.add_row(check.name, Text.assemble(f"{check.demand_pc_h:.0f} / {check.capacity_pc_h:.0f} pc/h ", state))
+    return table
+
+
+def batch_view(results: list[BatchResult], summary: BatchSummary, system: UnitSystem) -> RenderableType:
+    """Summary line, then the sites ranked worst first."""
+    head = Text.assemble(
+        (f"{summary.total} sites: ", "bold"),
+        (f"{summary.meets} meet", "green"),
+        ", ",
+        (f"{summary.short} short", "red"),
+        f" ({summary.cannot_reach} where the governing vehicle never reaches merge speed), ",
+        (f"{summary.unreadable} unreadable", "bold red" if summary.unreadable else ""),
+    )
+    by_vehicle = "; ".join(f"{v} governs {n}" for v, n in summary.short_by_vehicle.items()) or "-"
+    table = Table(title="Sites, worst first", title_justify="left")
+    table.add_column("#", justify="right")
+    table.add_column("Site", overflow="fold", ratio=1, min_width=28)
+    table.add_column("Verdict", no_wrap=True)
+    table.add_column("Governing", overflow="ellipsis", max_width=20)
+    for heading in ("Need", "Have", "Short by"):
+        table.add_column(f"{heading} ({unit_symbol('length', system)})", justify="right", no_wrap=True)
+    table.add_column(f"Δv ({unit_symbol('speed', system)})", justify="right", no_wrap=True)
+    for rank, result in enumerate(results, start=1):
+        row = batch_row(rank, result, system)
+        if result.assessment is None:
+            table.add_row(
+                row["rank"],
+                Text(f"{result.label}: {row['error']}", style="red"),
+                Text("unreadable", style="bold red"),
+                "",
+                "",
+                "",
+                "",
+                "",
+            )
+            continue
+        verdict = row["verdict"] if row["governing_verdict"] != "cannot-reach" else "short, never"
+        table.add_row(
+            row["rank"],
+            row["site"],
+            Text(verdict, style=_VERDICT_STYLE[result.assessment.verdict]),
+            row["governing_vehicle"],
+            row["length_needed"],
+            row["available"],
+            row["deficit"] or "-",
+            row["speed_differential_at_lane_end"],
+        )
+    return Group(head, Text(f"Short sites by governing vehicle: {by_vehicle}"), Text(""), table)
+
+
+def sweep_view(result: Sweep, system: UnitSystem) -> RenderableType:
+    kind = result.kind
+    table = Table(title=f"Sweep of {result.field}", title_justify="left")
+    unit = unit_symbol(kind, system) if kind in ("length", "grade", "flow", "weight_to_power") else ""
+    table.add_column(f"{result.field} ({unit})", justify="right")
+    table.add_column("Verdict")
+    table.add_column("Governing")
+    table.add_column(f"Needed ({unit_symbol('length', system)})", justify="right")
+    table.add_column("Merged by lane end", justify="right")
+    for p in result.points:
+        g = p.assessment.governing
+        needed = "never" if g.length_needed is None else f"{convert(g.length_needed, 'length', system):.0f}"
+        marker = "  ◂ verdict changes" if p.verdict_changes else ""
+        table.add_row(
+            f"{convert(p.value, kind, system):.{2 if kind in ('grade',) else 0}f}",
+            Text(p.assessment.verdict + marker, style=_VERDICT_STYLE[p.assessment.verdict]),
+            g.vehicle.id,
+            needed,
+            f"{g.merge.by_lane_end:.1%}",
+        )
     return table

@@ -1,0 +1,259 @@
+"""Many sites at once: read a folder, a YAML list or a CSV of sites, assess each, rank worst first.
+
+Every site goes through exactly the single-site path (:func:`mergecheck.site.site_from_input`
+and :func:`mergecheck.assessment.assess`), so a batch row equals ``mergecheck check`` on
+that site. Sites are spread over worker processes when there are enough of them to pay
+for starting the workers. A site that cannot be read is reported with its reason and does
+not stop the others.
+
+CSV input: one site per row. Column names are the site file's fields joined by
+underscores, with the unit as a suffix or in each cell:
+
+========================================  =====================================================
+column                                    meaning (site-file field)
+========================================  =====================================================
+name                                      name
+design_speed_kmh / _mph / (unit in cell)  mainline.design_speed
+operating_speed_kmh / _mph                mainline.operating_speed (optional)
+lanes                                     mainline.lanes
+adjacent_lane_flow_veh_h                  mainline.adjacent_lane_flow
+mainline_flow_veh_h                       mainline.flow (optional)
+controlling_speed_kmh / _mph              ramp.controlling_speed ("stop" allowed)
+ramp_flow_veh_h                           ramp.flow
+vehicles                                  ramp.vehicles as "passenger-car:0.85;semitrailer-design:0.15"
+entrance                                  geometry.entrance
+curve_end_to_convergence_m / _ft          geometry.curve_end_to_convergence
+lane_length_m / _ft                       geometry.lane_length
+taper_length_m / _ft                      geometry.taper_length
+grade_pct                                 one grade for the whole path, or
+profile                                   geometry.profile as "0 m:3 %;250 m:1.5 %"
+elevation_m / _ft                         geometry.elevation (optional)
+merge_speed_differential_kmh / _mph       criteria.merge_speed_differential (optional)
+========================================  =====================================================
+"""
+
+from __future__ import annotations
+
+import csv
+import os
+from collections.abc import Callable, Iterator
+from concurrent.futures import ProcessPoolExecutor
+from dataclasses import dataclass
+from functools import partial
+from pathlib import Path
+from typing import Any
+
+from .assessment import SiteAssessment, assess
+from .errors import InputError
+from .inputs import read_yaml, validated
+from .site import SiteInput, site_from_input
+
+UNIT_SUFFIXES = {"kmh": "km/h", "mph": "mph", "m": "m", "ft": "ft", "veh_h": "veh/h", "pct": "%", "s": "s"}
+PARALLEL_FROM = 8
+"""Use worker processes from this many sites on."""
+
+
+@dataclass(frozen=True, slots=True)
+class SiteEntry:
+    """One site of a batch as read: its validated input, or why it could not be read."""
+
+    label: str
+    """File, file and list index, or file and CSV row."""
+    data: SiteInput | None
+    error: str | None
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class BatchResult:
+    label: str
+    assessment: SiteAssessment | None
+    error: str | None
+
+
+def read_entries(path: str) -> list[SiteEntry]:
+    """Sites from a folder of site files, a YAML file with a list of sites, or a CSV with one site a row."""
+    source = Path(path)
+    if source.is_dir():
+        files = sorted(p for p in source.iterdir() if p.suffix in (".yaml", ".yml"))
+        if not files:
+            raise InputError(path, "", "the folder holds no .yaml site files")
+        return [_entry(str(f), partial(read_yaml, str(f))) for f in files]
+    if source.suffix.lower() == ".csv":
+        return list(_csv_entries(path))
+    raw = read_yaml(path)
+    sites = raw.get("sites") if isinstance(raw, dict) else raw
+    if not isinstance(sites, list) or not sites:
+        raise InputError(path, "sites", "a batch file is a list of sites, or a mapping with a 'sites' list")
+    return [_entry(f"{path}: sites.{i}", partial(_given, site)) for i, site in enumerate(sites)]
+
+
+def _given(value: Any) -> Any:
+    return value
+
+
+def _entry(label: str, raw: Callable[[], Any]) -> SiteEntry:
+    """Read and validate one site; a rule it breaks becomes the entry's error."""
+    try:
+        return SiteEntry(label, validated(raw(), SiteInput, label, "a site"), None)
+    except InputError as error:
+        return SiteEntry(label, None, str(error))
+
+
+def _csv_entries(path: str) -> Iterator[SiteEntry]:
+    try:
+        text = Path(path).read_text(encoding="utf-8")
+    except (OSError, UnicodeDecodeError) as error:
+        raise InputError(path, "", f"cannot read the CSV file: {error}") from None
+    lines = [line for line in text.splitlines() if not line.lstrip().startswith("#")]
+    for index, row in enumerate(csv.DictReader(lines), start=2):
+        label = f"{path}: row {index}"
+        yield _entry(label, partial(csv_row_to_site, row, label))
+
+
+def csv_row_to_site(row: dict[str, str | None], label: str) -> dict[str, Any]:
+    """A CSV row in the site file's form (strings with units), for the same validation."""
+    cells: dict[str, str] = {key.strip(): (value or "").strip() for key, value in row.items() if key}
+
+    def quantity(field: str, required: bool = True) -> str | None:
+        for suffix, unit in UNIT_SUFFIXES.items():
+            value = cells.get(f"{field}_{suffix}")
+            if value:
+                return value if value.lower() == "stop" else f"{value} {unit}"
+        value = cells.get(field)
+        if value:
+            return value
+        if required:
+            raise InputError(
+                label, field, "column missing or empty (give the unit as a suffix, e.g. _m, _kmh, or in the cell)"
+            )
+        return None
+
+    def share_list(text: str) -> dict[str, float]:
+        shares: dict[str, float] = {}
+        for part in filter(None, text.split(";")):
+            vehicle, _, share = part.partition(":")
+            try:
+                shares[vehicle.strip()] = float(share)
+            except ValueError:
+                raise InputError(label, "vehicles", f"{part!r} is not 'vehicle:share'") from None
+        return shares
+
+    profile: list[dict[str, str | None]] = []
+    if cells.get("profile"):
+        for part in filter(None, cells["profile"].split(";")):
+            start, _, grade = part.partition(":")
+            profile.append({"from": start.strip(), "grade": grade.strip()})
+    else:
+        profile = [{"from": "0 m", "grade": quantity("grade")}]
+    try:
+        lanes = int(cells.get("lanes") or "")
+    except ValueError:
+        raise InputError(label, "lanes", "must be a whole number of lanes") from None
+    site: dict[str, Any] = {
+        "name": cells.get("name") or label,
+        "mainline": {
+            "design_speed": quantity("design_speed"),
+            "lanes": lanes,
+            "adjacent_lane_flow": quantity("adjacent_lane_flow"),
+        },
+        "ramp": {
+            "controlling_speed": quantity("controlling_speed"),
+            "flow": quantity("ramp_flow"),
+            "vehicles": share_list(cells.get("vehicles", "")),
+        },
+        "geometry": {
+            "entrance": cells.get("entrance") or "parallel",
+            "curve_end_to_convergence": quantity("curve_end_to_convergence"),
+            "lane_length": quantity("lane_length"),
+            "taper_length": quantity("taper_length"),
+            "profile": profile,
+        },
+    }
+    optional = {
+        ("mainline", "operating_speed"): quantity("operating_speed", False),
+        ("mainline", "flow"): quantity("mainline_flow", False),
+        ("geometry", "elevation"): quantity("elevation", False),
+    }
+    for (section, field), value in optional.items():
+        if value is not None:
+            site[section][field] = value
+    differential = quantity("merge_speed_differential", False)
+    if differential is not None:
+        site["criteria"] = {"merge_speed_differential": differential}
+    return site
+
+
+def assess_entry(entry: SiteEntry) -> BatchResult:
+    """The single-site path for one entry; errors become the row's reason."""
+    if entry.data is None:
+        return BatchResult(label=entry.label, assessment=None, error=entry.error)
+    try:
+        return BatchResult(label=entry.label, assessment=assess(site_from_input(entry.data, entry.label)), error=None)
+    except InputError as error:
+        return BatchResult(label=entry.label, assessment=None, error=str(error))
+
+
+def assess_all(
+    entries: list[SiteEntry], *, workers: int | None = None, tick: Callable[[], None] | None = None
+) -> list[BatchResult]:
+    """Assess every entry, in input order, on up to ``workers`` processes (default: all cores)."""
+    workers = workers or os.cpu_count() or 1
+    results: list[BatchResult] = []
+    if workers <= 1 or len(entries) < PARALLEL_FROM:
+        for entry in entries:
+            results.append(assess_entry(entry))
+            if tick:
+                tick()
+        return results
+    with ProcessPoolExecutor(max_workers=workers) as pool:
+        for result in pool.map(assess_entry, entries, chunksize=max(1, len(entries) // (8 * workers))):
+            results.append(result)
+            if tick:
+                tick()
+    return results
+
+
+def severity(result: BatchResult) -> tuple[int, float]:
+    """Sort key, worst first: unreadable, cannot reach, short by deficit, then meets by least margin."""
+    a = result.assessment
+    if a is None:
+        return (0, 0.0)
+    g = a.governing
+    if g.verdict == "cannot-reach" or (g.verdict == "short" and g.deficit is None):
+        return (1, -g.speed_differential_at_lane_end)
+    if g.verdict == "short":
+        return (2, -(g.deficit or 0.0))
+    margin = a.site.available_length - (g.length_needed or 0.0)
+    return (3, margin)
+
+
+def ranked(results: list[BatchResult]) -> list[BatchResult]:
+    return sorted(results, key=severity)
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class BatchSummary:
+    total: int
+    meets: int
+    short: int
+    unreadable: int
+    cannot_reach: int
+    """Sites where the governing vehicle never reaches merge speed."""
+    short_by_vehicle: dict[str, int]
+    """How many short sites each design vehicle governs."""
+
+
+def summarize(results: list[BatchResult]) -> BatchSummary:
+    assessed = [r.assessment for r in results if r.assessment is not None]
+    short = [a for a in assessed if a.verdict == "short"]
+    by_vehicle: dict[str, int] = {}
+    for a in short:
+        by_vehicle[a.governing.vehicle.id] = by_vehicle.get(a.governing.vehicle.id, 0) + 1
+    return BatchSummary(
+        total=len(results),
+        meets=sum(a.verdict == "meets" for a in assessed),
+        short=len(short),
+        unreadable=len(results) - len(assessed),
+        cannot_reach=sum(a.governing.verdict == "cannot-reach" for a in assessed),
+        short_by_vehicle=dict(sorted(by_vehicle.items(), key=lambda kv: -kv[1])),
+    )

@@ -1,0 +1,108 @@
+"""Rerun one site across a range of one input and find where the verdict changes.
+
+Fields that can vary, each a real rerun of the whole assessment:
+
+``lane_length``            the acceleration lane (geometry.lane_length) [length]
+``grade``                  one grade over the whole path, replacing the profile [grade]
+``adjacent_lane_flow``     flow in the lane merged into (mainline.adjacent_lane_flow) [flow]
+``weight_to_power``        of every power-limited (heavy) design vehicle at the site [weight-to-power]
+"""
+
+from __future__ import annotations
+
+import dataclasses
+from dataclasses import dataclass
+
+import numpy as np
+
+from .acceleration import PowerLimited
+from .assessment import SiteAssessment, assess
+from .errors import InputError
+from .profile import VerticalProfile
+from .site import Site, SiteVehicle
+from .units import parse_quantity
+
+FIELDS: dict[str, str] = {
+    "lane_length": "length",
+    "grade": "grade",
+    "adjacent_lane_flow": "flow",
+    "weight_to_power": "weight_to_power",
+}
+MAX_POINTS = 200
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class SweepPoint:
+    value: float
+    """SI value of the varied input."""
+    assessment: SiteAssessment
+    verdict_changes: bool
+    """The verdict differs from the previous point's."""
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class Sweep:
+    field: str
+    kind: str
+    points: tuple[SweepPoint, ...]
+
+
+def parse_range(text: str, source: str = "command line") -> tuple[str, str, np.ndarray]:
+    """``FIELD=START:STOP:STEP`` with units, e.g. ``lane_length=200 m:600 m:50 m`` -> field, kind, SI values."""
+    field, sep, span = text.partition("=")
+    field = field.strip()
+    if not sep or field not in FIELDS:
+        raise InputError(source, "--vary", f"expected FIELD=START:STOP:STEP with FIELD one of {', '.join(FIELDS)}")
+    parts = span.split(":")
+    if len(parts) != 3:
+        raise InputError(source, "--vary", "expected START:STOP:STEP, each with its unit, e.g. 200 m:600 m:50 m")
+    kind = FIELDS[field]
+    start, stop, step = (parse_quantity(p, kind, source=source, field=f"--vary {field}") for p in parts)
+    if step <= 0 or stop < start:
+        raise InputError(source, "--vary", "STEP must be positive and STOP not below START")
+    count = int(np.floor((stop - start) / step + 1e-9)) + 1
+    if count > MAX_POINTS:
+        raise InputError(source, "--vary", f"{count} points; at most {MAX_POINTS}")
+    return field, kind, start + step * np.arange(count)
+
+
+def varied(site: Site, field: str, value: float) -> Site:
+    """A copy of the site with one input set to a value (SI)."""
+    match field:
+        case "lane_length":
+            if value <= 0:
+                raise InputError("command line", "--vary", "lane lengths must be positive")
+            return dataclasses.replace(site, lane_length=value)
+        case "grade":
+            return dataclasses.replace(site, profile=VerticalProfile.constant(value))
+        case "adjacent_lane_flow":
+            return dataclasses.replace(site, adjacent_lane_flow=value)
+        case "weight_to_power":
+            return dataclasses.replace(site, vehicles=tuple(_with_weight_to_power(v, value) for v in site.vehicles))
+    raise InputError("command line", "--vary", f"cannot vary {field}")
+
+
+def _with_weight_to_power(entry: SiteVehicle, weight_to_power: float) -> SiteVehicle:
+    model = entry.vehicle.model
+    if not isinstance(model, PowerLimited):  # passenger cars keep their driver model
+        return entry
+    body = dataclasses.replace(model.vehicle, power=model.vehicle.mass / weight_to_power)
+    vehicle = dataclasses.replace(entry.vehicle, model=PowerLimited(body), physical=body)
+    return dataclasses.replace(entry, vehicle=vehicle)
+
+
+def sweep(site: Site, field: str, values: np.ndarray) -> Sweep:
+    """Assess the site at each value of the field."""
+    points: list[SweepPoint] = []
+    previous = None
+    for value in values:
+        result = assess(varied(site, field, float(value)))
+        points.append(
+            SweepPoint(
+                value=float(value),
+                assessment=result,
+                verdict_changes=previous is not None and result.verdict != previous,
+            )
+        )
+        previous = result.verdict
+    return Sweep(field=field, kind=FIELDS[field], points=tuple(points))
