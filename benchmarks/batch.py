@@ -28,19 +28,19 @@ def generated(count: int, seed: int = 7) -> list[SiteEntry]:
                 "operating_speed": f"{design - 8} km/h",
                 "lanes": int(rng.integers(2, 5)),
                 "adjacent_lane_flow": f"{rng.uniform(300, 1600):.0f} veh/h",
-            },  # fmt: skip
+            },
             "ramp": {
                 "controlling_speed": f"{rng.choice([40, 50, 60]):.0f} km/h",
                 "flow": f"{rng.uniform(200, 900):.0f} veh/h",
                 "vehicles": {"passenger-car": 0.85, "single-unit-truck": 0.05, "semitrailer-fleet": 0.10},
-            },  # fmt: skip
+            },
             "geometry": {
                 "entrance": "parallel",
                 "curve_end_to_convergence": f"{rng.uniform(40, 200):.0f} m",
                 "lane_length": f"{rng.uniform(150, 500):.0f} m",
                 "taper_length": "90 m",
                 "profile": [{"from": "0 m", "grade": f"{rng.uniform(-3, 5):.1f} %"}],
-            },  # fmt: skip
+            },
         }
         entries.append(SiteEntry(f"generated {i}", SiteInput.model_validate(site), None))
     return entries
