@@ -65,6 +65,7 @@ def test_issue_minimal_form(cli: Any, repo: Path) -> None:
     assert run.code == 1
     assert "Verdict: SHORT" in run.stdout and "semitrailer-design" in run.stdout
     assert "Cautions" in run.stdout and "licensed engineer" in run.stdout
+    assert "Merging into the adjacent lane" in run.stdout and "Stops" in run.stdout
 
 
 @pytest.mark.parametrize(
@@ -102,6 +103,7 @@ def test_markdown_and_json_files(cli: Any, repo: Path, tmp_path: Path) -> None:
     for heading in (
         "# Acceleration-lane check",
         "## Acceleration length",
+        "## Merging into the adjacent lane",
         "## Policy minimum",
         "## Assumptions",
         "## Cautions",

@@ -76,18 +76,41 @@ def site_markdown(assessment: SiteAssessment, system: UnitSystem, exception: Des
         "",
         "## Acceleration length",
         "",
-        "Required length is measured as the policy tables measure it: from the convergence point to where the vehicle "
-        "reaches its merge speed.",
+        "Lengths are measured as the policy tables measure them, from the convergence point: to where the vehicle "
+        f"reaches its merge speed, and to where {site.gaps.reliability:.0%} of drivers have found an acceptable gap.",
         "",
-        f"| Vehicle | Share of ramp flow | Required ({l_unit}) | Available ({l_unit}) | Deficit ({l_unit}) | Verdict |",
-        "|---|--:|--:|--:|--:|---|",
+        f"| Vehicle | Share of ramp flow | To merge speed ({l_unit}) | For {site.gaps.reliability:.0%} gaps ({l_unit}) "
+        f"| Available ({l_unit}) | Deficit ({l_unit}) | Verdict |",
+        "|---|--:|--:|--:|--:|--:|---|",
     ]
     for v in assessment.vehicles:
         required = "never reached" if v.required_length is None else _num(v.required_length, "length", system)
         lines.append(
-            f"| `{v.vehicle.id}` | {v.share:.0%} | {required} | {_num(v.available_length, 'length', system)} | "
-            f"{_num(v.deficit, 'length', system)} | **{v.verdict}** |"
+            f"| `{v.vehicle.id}` | {v.share:.0%} | {required} | {_num(v.merge.length_for_reliability, 'length', system)} | "
+            f"{_num(v.available_length, 'length', system)} | {_num(v.deficit, 'length', system)} | **{v.verdict}** |"
         )
+    lines += [
+        "",
+        f"## Merging into the adjacent lane ({site.adjacent_lane_flow * 3600:.0f} veh/h)",
+        "",
+        "| Vehicle | May merge from | Merged by end of lane | By end of taper | Forced merges in taper (veh/h) "
+        "| Stops at end of taper (veh/h) | Mean wait when stopped (s) |",
+        "|---|--:|--:|--:|--:|--:|--:|",
+    ]
+    for v in assessment.vehicles:
+        m = v.merge
+        start = "never" if m.eligible_station is None else show(m.eligible_station - site.convergence, "length", system)
+        simulated = "" if v.monte_carlo is None else f" (simulated {v.monte_carlo.by_lane_end:.1%})"
+        lines.append(
+            f"| `{v.vehicle.id}` | {start} | {m.by_lane_end:.1%}{simulated} | {m.by_taper_end:.1%} | "
+            f"{m.forced_merges_per_h:.1f} | {m.stops_per_h:.1f} | {m.mean_stopped_wait:.0f} |"
+        )
+    lines += [
+        "",
+        "'May merge from' is measured from the convergence point: where the vehicle first comes within the minimum "
+        "merge speed of the stream. A stopped vehicle waits for a gap at its from-stop critical gap (Adams' formula "
+        "for random arrivals, its renewal-theory equivalent for Cowan's M3).",
+    ]
     policy = assessment.policy
     lines += ["", "## Policy minimum", ""]
     if policy is None:
