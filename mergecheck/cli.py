@@ -277,7 +277,7 @@ def _gaps(args: argparse.Namespace, out: Console) -> int:
         free_fraction=getattr(model, "free_fraction", None),
         p_headway_at_least=p,
         acceptable_gaps_per_h=flow * p * 3600,
-        mean_wait=mean_wait(model, gap),
+        mean_wait=float(mean_wait(model, gap)),
     )
     if args.json:
         sys.stdout.write(json_report.dumps(json_report.gaps_json(figures)))

@@ -45,6 +45,7 @@ acceptance and merging; from memory). Cowan (1975) and Tanner (1962): see
 
 from __future__ import annotations
 
+import functools
 import importlib.resources
 import math
 from dataclasses import dataclass
@@ -96,10 +97,16 @@ class CriticalGapDefaults:
     from_stop: CriticalGap
 
 
+@functools.cache
+def _critical_gap_data() -> dict[str, dict[str, dict[str, str]]]:
+    text = (importlib.resources.files("mergecheck.data") / "critical-gaps.yaml").read_text(encoding="utf-8")
+    data: dict[str, dict[str, dict[str, str]]] = yaml.safe_load(text)
+    return data
+
+
 def default_critical_gaps(category: str) -> CriticalGapDefaults:
     """Default critical gaps for a design-vehicle category (``mergecheck/data/critical-gaps.yaml``)."""
-    text = (importlib.resources.files("mergecheck.data") / "critical-gaps.yaml").read_text(encoding="utf-8")
-    data = yaml.safe_load(text)
+    data = _critical_gap_data()
 
     def gap(entry: dict[str, str]) -> CriticalGap:
         return CriticalGap(float(entry["mean"].split()[0]), float(entry["sd"].split()[0]), entry["source"])
@@ -312,7 +319,7 @@ def merge_reliability(
         wait = 0.0
     else:
         gaps, weights = stop_critical_gap.nodes()
-        wait = float(sum(wt * mean_wait(headways, float(g)) for g, wt in zip(gaps, weights, strict=True)))
+        wait = float(weights @ mean_wait(headways, gaps))
     return MergeReliability(
         station=station,
         probability=probability,

@@ -17,6 +17,7 @@ beyond the blocks has no factor, and no policy value is given for it.
 
 from __future__ import annotations
 
+import functools
 import importlib.resources
 import itertools
 from dataclasses import dataclass
@@ -140,8 +141,17 @@ class PolicyValue:
     note: str
 
 
+@functools.cache
+def _bundled_policy() -> PolicyTable:
+    return _load_policy(None)
+
+
 def load_policy(path: str | None) -> PolicyTable:
-    """Load a policy table by path, or the bundled one when path is None."""
+    """Load a policy table by path, or the bundled one when path is None (read once)."""
+    return _bundled_policy() if path is None else _load_policy(path)
+
+
+def _load_policy(path: str | None) -> PolicyTable:
     if path is None:
         text = (importlib.resources.files("mergecheck.data") / BUNDLED_POLICY).read_text(encoding="utf-8")
         origin = f"bundled: {BUNDLED_POLICY}"

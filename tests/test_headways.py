@@ -85,3 +85,16 @@ def test_unknown_headway_model_lists_valid_ones() -> None:
 def test_m3_refuses_impossible_parameters() -> None:
     with pytest.raises(ValueError, match="minimum headway times the flow"):
         CowanM3(0.6, 2.0, 0.5)
+
+
+@pytest.mark.parametrize("model", [Exponential(0.35), CowanM3.tanner(0.3, 1.2), CowanM3(0.4, 0.8, 0.5)])
+def test_survival_integrals_match_quadrature(model: Exponential | CowanM3) -> None:
+    """The closed-form integrals of S and r S (used by the wait formula) against scipy.integrate.quad."""
+    from scipy.integrate import quad
+
+    for t in (0.3, 1.0, 2.5, 7.0, 15.0):
+        points = [b for b in model.breakpoints if 0 < b < t] or None
+        area, _ = quad(lambda r: float(model.survival(r)), 0, t, points=points)
+        moment, _ = quad(lambda r: r * float(model.survival(r)), 0, t, points=points)
+        assert float(model.survival_integral(t)) == pytest.approx(area, rel=1e-9)
+        assert float(model.survival_moment(t)) == pytest.approx(moment, rel=1e-9)
