@@ -380,7 +380,7 @@ def _assumptions(
                 "Queue in breakdown",
                 f"triangular flow-density relation, capacity per lane from the manual, jam density "
                 f"{m.jam_density * 1000:.0f} veh/km per lane; ramp demand served first; peak lasting "
-                f"{m.peak_duration / 3600:.2f} h, then {m.demand_after_peak:.0%} of the peak",
+                "demand profile " + ", ".join(f"{d / 60:.0f} min at {s:.0%}" for d, s in m.demand_profile),
                 "kinematic-wave theory (Lighthill and Whitham 1955; Richards 1956); jam density common practice",
             ),
         ]

@@ -119,8 +119,11 @@ def merge_operations(site: Site, speeds_at_lane_end: dict[str, float]) -> MergeO
         arriving = upstream.free(min(mainline_pc / 3600, upstream.capacity))
         queued = upstream.congested(min(discharge, upstream.capacity))
         queue = queue_growth(arriving, queued, 3600.0)
-        after = upstream.free(min(mainline_pc * m.demand_after_peak / 3600, upstream.capacity))
-        history = queue_history([(m.peak_duration, arriving), (6 * 3600.0, after)], queued, step=30.0)
+        periods = [
+            (duration, upstream.free(min(mainline_pc * share / 3600, upstream.capacity)))
+            for duration, share in m.demand_profile
+        ]
+        history = queue_history(periods, queued, step=30.0)
     return MergeOperations(
         area=area,
         mainline_pc_h=mainline_pc,

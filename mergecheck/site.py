@@ -27,6 +27,8 @@ from .units import parse_quantity
 from .vehicles import DesignVehicle, bundled_ids, load_vehicle
 
 SHARE_TOLERANCE = 1e-3
+AFTER_PEAK = 6 * 3600.0
+"""How long the after-peak demand is followed when no demand profile is given. [s]"""
 
 
 class _Strict(BaseModel):
@@ -165,6 +167,13 @@ class GapAcceptanceInput(_Strict):
     )
 
 
+class DemandPeriodInput(_Strict):
+    """One period of a demand profile."""
+
+    duration: str = Field(description="How long the period lasts, e.g. '30 min'.")
+    share: float = Field(ge=0.0, le=2.0, description="Demand in the period as a share of the design-hour demand.")
+
+
 class MergeAreaInput(_Strict):
     """Inputs of the capacity-manual merge-area check and the breakdown figures."""
 
@@ -191,6 +200,14 @@ class MergeAreaInput(_Strict):
         gt=0.0,
         le=1.0,
         description="Demand after the peak as a share of the peak (default 0.7), to time the queue's clearing.",
+    )
+    demand_profile: list[DemandPeriodInput] | None = Field(
+        default=None,
+        min_length=1,
+        description=(
+            "Demand over time as periods with their share of the design-hour demand; replaces peak_duration and"
+            " demand_after_peak, e.g. [{duration: 30 min, share: 0.9}, {duration: 1 h, share: 1.0}, {duration: 2 h, share: 0.6}]."
+        ),
     )
 
 
@@ -256,9 +273,8 @@ class MergeAreaSettings:
     ramp_lanes: int
     jam_density: float
     """Per lane. [veh/m]"""
-    peak_duration: float
-    """[s]"""
-    demand_after_peak: float
+    demand_profile: tuple[tuple[float, float], ...]
+    """Periods of (duration [s], share of the design-hour demand), in order."""
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -544,6 +560,15 @@ def _merge_settings(
     duration = q(m.peak_duration, "time", "merge_area.peak_duration")
     if not 0 < duration <= 6 * 3600:
         raise InputError(source, "merge_area.peak_duration", "must be positive and at most 6 h")
+    profile: tuple[tuple[float, float], ...] = ((duration, 1.0), (AFTER_PEAK, m.demand_after_peak))
+    if m.demand_profile is not None:
+        periods = []
+        for i, period in enumerate(m.demand_profile):
+            length = q(period.duration, "time", f"merge_area.demand_profile.{i}.duration")
+            if not 0 < length <= 24 * 3600:
+                raise InputError(source, f"merge_area.demand_profile.{i}.duration", "must be positive and at most 24 h")
+            periods.append((length, period.share))
+        profile = tuple(periods)
     return MergeAreaSettings(
         mainline_flow=flow,
         peak_hour_factor=m.peak_hour_factor,
@@ -553,8 +578,7 @@ def _merge_settings(
         ramp_free_flow_speed=ramp_ffs,
         ramp_lanes=m.ramp_lanes,
         jam_density=jam,
-        peak_duration=duration,
-        demand_after_peak=m.demand_after_peak,
+        demand_profile=profile,
     )
 
 

@@ -187,3 +187,24 @@ def test_slow_trucks_cost_capacity(cli: Any, repo: Path) -> None:
     area = cli("check", repo / "examples" / "quarry-hill-upgrade.yaml", "--json").json()["merge_area"]
     assert area["ramp_equivalents"]["semitrailer-design"] > area["ramp_equivalents"]["semitrailer-fleet"] > 2.0
     assert area["capacity_lost_to_slow_trucks_pc_h"] > 0
+
+
+def test_demand_profile_times_the_clearing(cli: Any, repo: Path, tmp_path: Path) -> None:
+    """The lower the demand after the peak, the sooner the queue clears (kinematic waves move faster)."""
+    import yaml
+
+    clears = []
+    for share in (0.8, 0.6, 0.4):
+        site = yaml.safe_load((repo / "examples" / "harbour-street-constrained.yaml").read_text())
+        site["policy"] = str(repo / "examples" / "agency-policy-table.yaml")
+        site["merge_area"] = {"demand_profile": [{"duration": "1 h", "share": 1.0}, {"duration": "5 h", "share": share}]}
+        site_file = tmp_path / "site.yaml"
+        site_file.write_text(yaml.safe_dump(site))
+        area = cli("check", site_file, "--json").json()["merge_area"]
+        clears.append(area["queue_clears_after_s"])
+    assert all(c is not None and c > 3600 for c in clears)
+    assert clears[0] > clears[1] > clears[2]
+    site["merge_area"] = {"demand_profile": [{"duration": "1 kg", "share": 1.0}]}
+    site_file.write_text(yaml.safe_dump(site))
+    bad = cli("check", site_file)
+    assert bad.code == 2 and "merge_area.demand_profile.0.duration" in bad.stderr
