@@ -379,7 +379,7 @@ def _assumptions(
             Assumption(
                 "Queue in breakdown",
                 f"triangular flow-density relation, capacity per lane from the manual, jam density "
-                f"{m.jam_density * 1000:.0f} veh/km per lane; ramp demand served first; peak lasting "
+                f"{m.jam_density * 1000:.0f} veh/km per lane; ramp demand served first; "
                 "demand profile " + ", ".join(f"{d / 60:.0f} min at {s:.0%}" for d, s in m.demand_profile),
                 "kinematic-wave theory (Lighthill and Whitham 1955; Richards 1956); jam density common practice",
             ),

@@ -197,7 +197,9 @@ def test_demand_profile_times_the_clearing(cli: Any, repo: Path, tmp_path: Path)
     for share in (0.8, 0.6, 0.4):
         site = yaml.safe_load((repo / "examples" / "harbour-street-constrained.yaml").read_text())
         site["policy"] = str(repo / "examples" / "agency-policy-table.yaml")
-        site["merge_area"] = {"demand_profile": [{"duration": "1 h", "share": 1.0}, {"duration": "5 h", "share": share}]}
+        site["merge_area"] = {
+            "demand_profile": [{"duration": "1 h", "share": 1.0}, {"duration": "5 h", "share": share}]
+        }
         site_file = tmp_path / "site.yaml"
         site_file.write_text(yaml.safe_dump(site))
         area = cli("check", site_file, "--json").json()["merge_area"]

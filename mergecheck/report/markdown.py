@@ -8,7 +8,7 @@ from ..cautions import CAUTIONS
 from ..exception import DesignException
 from ..units import UnitSystem, convert, show, unit_symbol
 from .table_rows import batch_row
-from .wording import mitigation_change
+from .wording import clearing, mitigation_change
 
 
 def _cell(text: object) -> str:
@@ -153,16 +153,12 @@ def site_markdown(assessment: SiteAssessment, system: UnitSystem, exception: Des
         ]
         if operations.queue is not None:
             queue = operations.queue
-            clears = (
-                "not within 6 h"
-                if operations.history is None or operations.history.clears_at is None
-                else f"{operations.history.clears_at / 60:.0f} min"
-            )
+            clears = clearing(operations)
             lines += [
                 "",
                 f"**Breakdown.** Demand exceeds the downstream capacity. The back of the queue moves upstream at "
                 f"{show(-queue.shock_speed, 'speed', system)}, the queue gains {queue.growth * 3600 * operations.veh_per_pc_mainline:.0f} veh/h, "
-                f"stretches {show(-queue.shock_speed * 3600, 'length', system)} after one hour, and clears {clears} after the peak begins.",
+                f"stretches {show(-queue.shock_speed * 3600, 'length', system)} after one hour, and clears {clears}.",
             ]
     if exception is not None:
         lines += _exception_lines(assessment, exception, system)

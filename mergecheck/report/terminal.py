@@ -18,6 +18,7 @@ from ..shockwave import QueueGrowth
 from ..sweep import Sweep
 from ..units import UnitSystem, convert, show, unit_symbol
 from .table_rows import batch_row
+from .wording import clearing
 
 
 def _table_interval(length: float, system: UnitSystem) -> float:
@@ -247,9 +248,7 @@ def _num(value: float | None, kind: str, system: UnitSystem) -> str:
 
 
 def gaps_view(figures: GapFigures) -> RenderableType:
-    table = Table.grid(padding=(0, 2))
-    table.add_column(style="bold")
-    table.add_column()
+    table = _grid()
     model = (
         "negative exponential"
         if figures.model == "exponential"
@@ -264,9 +263,7 @@ def gaps_view(figures: GapFigures) -> RenderableType:
 
 
 def critical_gap_view(estimate: CriticalGapEstimate, source: str) -> RenderableType:
-    table = Table.grid(padding=(0, 2))
-    table.add_column(style="bold")
-    table.add_column()
+    table = _grid()
     table.add_row("Observations", f"{source}: {estimate.drivers} drivers")
     table.add_row("Method", estimate.note)
     label = "Mean critical gap" if estimate.method == "mle" else "Critical gap"
@@ -280,9 +277,7 @@ def critical_gap_view(estimate: CriticalGapEstimate, source: str) -> RenderableT
 def merge_area_view(operations: MergeOperations, system: UnitSystem) -> RenderableType:
     """Capacity-manual merge-area figures and, in breakdown, the queue."""
     area = operations.area
-    table = Table.grid(padding=(0, 2))
-    table.add_column(style="bold")
-    table.add_column()
+    table = _grid()
     density = f"{area.density_pc_mi_ln:.1f} pc/mi/ln ({area.density_pc_km_ln:.1f} pc/km/ln)"
     table.add_row("Merge area (HCM ch. 14)", f"LOS {area.los}, density {density}")
     table.add_row(
@@ -299,24 +294,18 @@ def merge_area_view(operations: MergeOperations, system: UnitSystem) -> Renderab
     table.add_row("Capacity lost to slow trucks", f"{operations.capacity_lost_pc_h:.0f} pc/h")
     if operations.queue is not None:
         queue = operations.queue
-        clears = (
-            "-"
-            if operations.history is None or operations.history.clears_at is None
-            else f"{operations.history.clears_at / 60:.0f} min"
-        )
+        clears = clearing(operations)
         table.add_row(
             Text("Breakdown", style="bold red"),
             f"queue back moves upstream at {show(-queue.shock_speed, 'speed', system)}, gains "
             f"{queue.growth * 3600 * operations.veh_per_pc_mainline:.0f} veh/h; "
-            f"{show(-queue.shock_speed * 3600, 'length', system)} long after 1 h; clears after {clears}",
+            f"{show(-queue.shock_speed * 3600, 'length', system)} long after 1 h; clears {clears}",
         )
     return table
 
 
 def queue_view(queue: QueueGrowth, system: UnitSystem) -> RenderableType:
-    table = Table.grid(padding=(0, 2))
-    table.add_column(style="bold")
-    table.add_column()
+    table = _grid()
     table.add_row(
         "Arriving",
         f"{queue.arriving.flow * 3600:.0f} veh/h at {queue.arriving.density * 1000:.1f} veh/km ({show(queue.arriving.speed, 'speed', system)})",
@@ -339,9 +328,7 @@ def queue_view(queue: QueueGrowth, system: UnitSystem) -> RenderableType:
 
 
 def area_view(area: MergeArea) -> RenderableType:
-    table = Table.grid(padding=(0, 2))
-    table.add_column(style="bold")
-    table.add_column()
+    table = _grid()
     table.add_row(
         "Level of service",
         f"{area.los} (influence-area density {area.density_pc_mi_ln:.1f} pc/mi/ln, {area.density_pc_km_ln:.1f} pc/km/ln)",
@@ -422,4 +409,12 @@ def sweep_view(result: Sweep, system: UnitSystem) -> RenderableType:
             needed,
             f"{g.merge.by_lane_end:.1%}",
         )
+    return table
+
+
+def _grid() -> Table:
+    """A two-column grid: bold labels, then values."""
+    table = Table.grid(padding=(0, 2))
+    table.add_column(style="bold")
+    table.add_column()
     return table

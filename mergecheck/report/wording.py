@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from ..exception import Mitigation
+from ..merge_operations import MergeOperations
 from ..units import UnitSystem, show
 
 
@@ -18,3 +19,10 @@ def mitigation_change(mitigation: Mitigation, system: UnitSystem) -> str:
         case "metering":
             return "vehicles start from a stop at the end of the ramp (station 0)"
     return "no change"
+
+
+def clearing(operations: MergeOperations) -> str:
+    """When the queue of a broken-down merge clears, in words."""
+    if operations.history is None or operations.history.clears_at is None:
+        return "not within the demand profile"
+    return f"{operations.history.clears_at / 60:.0f} min after the peak begins"
