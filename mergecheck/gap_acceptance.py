@@ -53,6 +53,7 @@ from dataclasses import dataclass
 import numpy as np
 import yaml
 from numpy.typing import NDArray
+from scipy.signal import lfilter
 
 from .headways import HeadwayModel, mean_wait
 
@@ -181,13 +182,14 @@ def not_merged(
     # mass of gaps shorter than t_c in each cell (exact: a survival difference)
     rejected = np.where(inside, s_lower - headways.survival(clipped), 0.0)
     tail = np.cumsum(rejected[:, ::-1], axis=1)[:, ::-1]  # sum over cells >= index
-    u = np.zeros((gaps.size, n))
-    for i in range(n):  # Eq. (2), explicit in i except the cell j = 0
-        window = min(i, j_max)
-        earlier = u[:, i - np.arange(1, window + 1)]  # U(tau - h) for h in cells 1..window
-        convolution = np.einsum("kj,kj->k", rejected[:, 1 : window + 1], earlier)
-        beyond = tail[:, i + 1] if i + 1 <= j_max else 0.0
-        u[:, i] = (beyond + convolution) / (1.0 - rejected[:, 0])
+    # Eq. (2) is a linear recursion in i, U_i (1 - r_0) = sum_{j > i} r_j + sum_{j=1..i} r_j U_{i-j}:
+    # an all-pole filter driven by the tail masses, run by scipy.signal.lfilter for each node.
+    drive = np.zeros((gaps.size, n))
+    m_tail = min(n, j_max)
+    drive[:, :m_tail] = tail[:, 1 : m_tail + 1]
+    u = np.empty((gaps.size, n))
+    for k in range(gaps.size):
+        u[k] = lfilter([1.0], np.concatenate([[1.0 - rejected[k, 0]], -rejected[k, 1:]]), drive[k])
     # Eq. (3): residual r of the length-biased first gap, density (S(r) - S(t_c)) / mu for r < t_c.
     # Cell i covers r in [i dt, (i + 1) dt), integrated exactly and counted as passed at the
     # end of the cell, (i + 1) dt: exact at tau = 0, at most one cell late after.
