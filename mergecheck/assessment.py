@@ -336,7 +336,7 @@ def _assumptions(
         Assumption(
             "Integration",
             "speed integrated along distance, grade as a function of station",
-            "SciPy DOP853, relative tolerance 1e-10; checked against closed forms in the test suite",
+            "SciPy DOP853, relative tolerance 1e-8; checked against closed forms in the test suite",
         ),
     ]
     for r in results:

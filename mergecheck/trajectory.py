@@ -258,8 +258,8 @@ def accelerate(
             (x, segment_end),
             [u, t],
             method="DOP853",
-            rtol=1e-10,
-            atol=[1e-9, 1e-9],
+            rtol=1e-8,
+            atol=[1e-8, 1e-8],
             events=[reach, stall] if target_x is None else [stall],
             dense_output=True,
         )
