@@ -16,6 +16,7 @@ from typing import NoReturn
 from rich.console import Console
 from rich.progress import MofNCompleteColumn, Progress
 
+from . import __version__
 from .assessment import assess
 from .batch import assess_all, ranked, read_entries, summarize
 from .critical_gap_estimation import ESTIMATORS, read_observations
@@ -47,6 +48,7 @@ class _Parser(argparse.ArgumentParser):
 
 def build_parser() -> argparse.ArgumentParser:
     parser = _Parser(prog="mergecheck", description="Check an entrance ramp's acceleration lane and merge.")
+    parser.add_argument("--version", action="version", version=f"mergecheck {__version__}")
     commands = parser.add_subparsers(dest="command", required=True, parser_class=_Parser)
 
     listing = commands.add_parser("vehicles", help="list the bundled design vehicles and their key figures")
