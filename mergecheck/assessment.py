@@ -145,13 +145,7 @@ def assess_vehicle(
     )
     merge_station = trajectory.target_station
     available = site.available_length
-    required: float | None = None
-    deficit: float | None = None
-    verdict: VehicleVerdict = "cannot-reach"
-    if merge_station is not None:
-        required = max(0.0, merge_station - site.convergence)
-        deficit = max(0.0, required - available)
-        verdict = "meets" if required <= available else "short"
+    required = None if merge_station is None else max(0.0, merge_station - site.convergence)
     differential = site.operating_speed - at_taper_start
     merge = merge_reliability(
         trajectory.station,
@@ -181,13 +175,20 @@ def assess_vehicle(
             count=monte_carlo,
             seed=seed,
         )
-    needed = None
-    if required is not None and merge.length_for_reliability is not None:
-        needed = max(required, merge.length_for_reliability)
+    needed = (
+        None
+        if required is None or merge.length_for_reliability is None
+        else max(required, merge.length_for_reliability)
+    )
+    verdict: VehicleVerdict
+    deficit: float | None = None
+    if required is None:
+        verdict = "cannot-reach"
+    elif needed is None:
+        verdict = "short"  # reaches merge speed but not the target reliability on any length searched
+    else:
         deficit = max(0.0, needed - available)
         verdict = "meets" if needed <= available else "short"
-    elif required is not None:
-        deficit, verdict = None, "short"
     return VehicleAssessment(
         vehicle=entry.vehicle,
         share=entry.share,
