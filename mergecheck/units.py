@@ -68,7 +68,7 @@ def parse_quantity(text: object, kind: str, *, source: str, field: str) -> float
         raise _bad(source, field, f"expected {example}, got {text!r}")
     try:
         quantity: Any = ureg.Quantity(text.strip())
-    except (pint.errors.PintError, ValueError, TypeError, AttributeError, SyntaxError):
+    except Exception:  # pint's parser raises many kinds (tokenize, assertion, pint, value errors) on odd text
         raise _bad(source, field, f"cannot read {text!r} as a quantity: expected {example}") from None
     if not isinstance(quantity, pint.Quantity):
         raise _bad(source, field, f"a unit is required: expected {example}, got {text!r}")

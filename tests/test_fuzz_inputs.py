@@ -1,0 +1,119 @@
+"""Bad input never gives a traceback: random values in every field end in success or an InputError."""
+
+from __future__ import annotations
+
+import copy
+from pathlib import Path
+from typing import Any
+
+import pytest
+import yaml
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from mergecheck.assessment import assess
+from mergecheck.errors import InputError
+from mergecheck.site import load_site
+
+BASE = yaml.safe_load((Path(__file__).parent.parent / "examples" / "larkspur-road.yaml").read_text())
+FIELDS = [
+    ("mainline", "design_speed"),
+    ("mainline", "operating_speed"),
+    ("mainline", "lanes"),
+    ("mainline", "adjacent_lane_flow"),
+    ("mainline", "flow"),
+    ("ramp", "controlling_speed"),
+    ("ramp", "flow"),
+    ("ramp", "vehicles"),
+    ("geometry", "curve_end_to_convergence"),
+    ("geometry", "lane_length"),
+    ("geometry", "taper_length"),
+    ("geometry", "profile"),
+    ("criteria", "merge_speed_differential"),
+]
+VALUES = st.one_of(
+    st.none(),
+    st.integers(-10_000, 10_000),
+    st.floats(allow_nan=True, allow_infinity=True),
+    st.text(max_size=12),
+    st.sampled_from(
+        ["65 mph", "-5 km/h", "0 m", "1e9 m", "4 %", "nan m", "3 kg", "stop", "12 %", "0 veh/h", "5000 veh/h"]
+    ),
+    st.lists(st.integers(), max_size=3),
+    st.dictionaries(st.text(max_size=5), st.floats(0, 1), max_size=2),
+)
+
+
+@settings(max_examples=120, deadline=None, suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(field=st.sampled_from(FIELDS), value=VALUES)
+def test_any_value_in_any_field_is_handled(tmp_path: Path, field: tuple[str, str], value: Any) -> None:
+    site = copy.deepcopy(BASE)
+    site[field[0]][field[1]] = value
+    path = tmp_path / "site.yaml"
+    path.write_text(yaml.safe_dump(site))
+    try:
+        assess(load_site(str(path)))
+    except InputError as error:
+        assert str(path) in str(error)
+
+
+@pytest.mark.parametrize("text", ["", "[]", "42", "name: only", "{mainline: 3}", ":::"])
+def test_degenerate_files(tmp_path: Path, text: str) -> None:
+    path = tmp_path / "site.yaml"
+    path.write_text(text)
+    with pytest.raises(InputError, match="site.yaml"):
+        load_site(str(path))
+
+
+@settings(max_examples=300, deadline=None)
+@given(text=st.one_of(st.text(max_size=20), st.from_regex(r"-?[0-9.e+]{1,6} ?[a-z/%^*()\[\]]{0,8}", fullmatch=True)),
+       kind=st.sampled_from(["speed", "length", "grade", "time", "mass", "power", "weight_to_power", "flow", "density"]))  # fmt: skip
+def test_parse_quantity_never_raises_anything_else(text: str, kind: str) -> None:
+    from mergecheck.units import parse_quantity
+
+    try:
+        value = parse_quantity(text, kind, source="fuzz", field="f")
+    except InputError as error:
+        assert "fuzz: f:" in str(error)
+    else:
+        assert value == value and abs(value) != float("inf")  # finite
+
+
+@settings(max_examples=150, deadline=None)
+@given(cells=st.dictionaries(st.sampled_from(["name", "design_speed_kmh", "lanes", "adjacent_lane_flow_veh_h", "controlling_speed_kmh",
+                                              "ramp_flow_veh_h", "vehicles", "lane_length_m", "taper_length_m", "grade_pct", "profile",
+                                              "curve_end_to_convergence_m"]),
+                             st.text(max_size=10), max_size=12))  # fmt: skip
+def test_csv_rows_never_raise_anything_else(cells: dict[str, str]) -> None:
+    from mergecheck.batch import _entry, csv_row_to_site
+
+    row: dict[str, str | None] = dict(cells)
+    entry = _entry("fuzz.csv: row 2", lambda: csv_row_to_site(row, "fuzz.csv: row 2"))
+    assert (entry.data is None) == (entry.error is not None)
+
+
+VEHICLE = yaml.safe_load((Path(__file__).parent.parent / "vehicle_profiles" / "passenger-car.yaml").read_text())
+
+
+@settings(max_examples=150, deadline=None)
+@given(
+    block=st.sampled_from(["parameters", "capability"]),
+    name=st.sampled_from(
+        ["alpha", "beta", "grade_response", "mass", "power", "efficiency", "frontal_area", "full_power_speed"]
+    ),
+    value=VALUES,
+)
+def test_vehicle_profile_values_never_raise_anything_else(block: str, name: str, value: Any) -> None:
+    from mergecheck.vehicles import parse_vehicle
+
+    profile = copy.deepcopy(VEHICLE)
+    if name in profile[block]:
+        profile[block][name]["value"] = value
+    else:
+        profile[block][name] = {"value": value, "source": "fuzz"}
+    try:
+        vehicle = parse_vehicle(yaml.safe_dump(profile), "fuzz.yaml")
+    except InputError as error:
+        assert "fuzz.yaml" in str(error)
+    else:
+        assert vehicle.id == "passenger-car"
