@@ -61,7 +61,7 @@ def test_any_value_in_any_field_is_handled(tmp_path: Path, field: tuple[str, str
 def test_degenerate_files(tmp_path: Path, text: str) -> None:
     path = tmp_path / "site.yaml"
     path.write_text(text)
-    with pytest.raises(InputError, match="site.yaml"):
+    with pytest.raises(InputError, match=r"site\.yaml"):
         load_site(str(path))
 
 
