@@ -337,7 +337,7 @@ def _merge_area(args: argparse.Namespace, out: Console) -> int:
         lanes_downstream=args.lanes_downstream,
     )
     if args.json:
-        sys.stdout.write(json_report.dumps(json_report.area_json(result)))
+        sys.stdout.write(json_report.dumps(json_report.merge_area_command_json(result)))
     else:
         out.print(terminal.area_view(result))
     return EXIT_OK

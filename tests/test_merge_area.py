@@ -185,6 +185,7 @@ def test_site_merge_area_and_breakdown(cli: Any, repo: Path) -> None:
 def test_slow_trucks_cost_capacity(cli: Any, repo: Path) -> None:
     """Trucks crawling on the upgrade count for more passenger cars than on the level (speed-ratio equivalent)."""
     area = cli("check", repo / "examples" / "quarry-hill-upgrade.yaml", "--json").json()["merge_area"]
+    # 2.0 is the level-terrain truck equivalent (HCM, REFERENCES.md section 6, CONFIRMED)
     assert area["ramp_equivalents"]["semitrailer-design"] > area["ramp_equivalents"]["semitrailer-fleet"] > 2.0
     assert area["capacity_lost_to_slow_trucks_pc_h"] > 0
 

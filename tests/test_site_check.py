@@ -49,7 +49,7 @@ def test_example_constrained_site_is_short_with_agency_table(cli: Any, repo: Pat
     doc = run.json()
     assert doc["verdict"] == "short"
     assert "invented" in doc["policy"]["title"]
-    # 100 km/h highway, 40 km/h ramp: the agency table's cell, flat grade (1.5 %)
+    # 100 km/h highway, 40 km/h ramp: the cell of the invented example table (checks the lookup, not a standard)
     assert doc["policy"]["minimum_length_m"] == pytest.approx(340.0)
     car = next(v for v in doc["vehicles"] if v["id"] == "passenger-car")
     assert car["available_length_m"] == pytest.approx(150.0 + 0.5 * 75.0)  # half the taper credited
@@ -156,6 +156,7 @@ def test_bilinear_interpolation_by_hand() -> None:
 
 def test_stop_column_and_limits() -> None:
     table = load_policy(None)
+    # stop column midway between 65 and 70 mph: (1410 + 1620) / 2 = 1515 ft (Green Book 2011, FROM MEMORY; by hand)
     assert policy_minimum(table, 67.5 * MPH, None, 0.0).minimum_length == pytest.approx(1515 * FT)
     assert policy_minimum(table, 75 * MPH, 30 * MPH, 0.0).minimum_length is None  # beyond the table: no extrapolation
     assert policy_minimum(table, 40 * MPH, 40 * MPH, 0.0).minimum_length is None  # blank cell
@@ -171,4 +172,4 @@ def test_grade_factor_applied_within_block() -> None:
     between = policy_minimum(load_policy(None), 60 * MPH, 30 * MPH, 0.045)
     assert between.minimum_length is None and "no grade factors" in between.note
     down = policy_minimum(load_policy(None), 60 * MPH, 30 * MPH, -0.035)
-    assert down.minimum_length == pytest.approx(910 * FT * 0.6)
+    assert down.minimum_length == pytest.approx(910 * FT * 0.6)  # 3-4 % downgrade factor 0.6 (FROM MEMORY)

@@ -7,6 +7,7 @@ from typing import Any
 
 from ..assessment import SiteAssessment, VehicleAssessment
 from ..batch import BatchResult, BatchSummary
+from ..cautions import CAUTIONS
 from ..critical_gap_estimation import CriticalGapEstimate
 from ..figures import VehicleFigures
 from ..gap_acceptance import CriticalGap
@@ -42,6 +43,7 @@ def acceleration_json(run: AccelerationRun) -> dict[str, Any]:
             "time_s": [round(float(t), 4) for t in trajectory.time],
             "grade": [round(float(g), 6) for g in run.profile.grade(trajectory.station)],
         },
+        "cautions": list(CAUTIONS),
     }
 
 
@@ -171,6 +173,7 @@ def gaps_json(figures: GapFigures) -> dict[str, Any]:
         "p_headway_at_least": _number(figures.p_headway_at_least, 8),
         "acceptable_gaps_per_h": _number(figures.acceptable_gaps_per_h, 4),
         "mean_wait_s": _number(figures.mean_wait, 4),
+        "cautions": list(CAUTIONS),
     }
 
 
@@ -188,6 +191,7 @@ def critical_gap_json(estimate: CriticalGapEstimate, source: str) -> dict[str, A
         "log_sd": _number(estimate.log_sd),
         "log_likelihood": _number(estimate.log_likelihood, 4),
         "note": estimate.note,
+        "cautions": list(CAUTIONS),
     }
 
 
@@ -220,8 +224,9 @@ def area_json(area: MergeArea) -> dict[str, Any]:
 
 
 def queue_json(queue: QueueGrowth, veh_per_unit: float = 1.0) -> dict[str, Any]:
-    """Shock-wave and queue figures between two states."""
+    """Shock-wave and queue figures between two states (the ``queue --json`` document)."""
     return {
+        "cautions": list(CAUTIONS),
         "shock_speed_m_s": _number(queue.shock_speed),
         "queue_growth_veh_h": _number(queue.growth * 3600 * veh_per_unit, 3),
         "duration_s": _number(queue.duration, 3),
@@ -270,6 +275,7 @@ def batch_json(results: list[BatchResult], summary: BatchSummary) -> dict[str, A
             "cannot_reach": summary.cannot_reach,
             "short_by_governing_vehicle": summary.short_by_vehicle,
         },
+        "cautions": list(CAUTIONS),
         "sites": [
             {
                 "rank": rank,
@@ -285,6 +291,7 @@ def batch_json(results: list[BatchResult], summary: BatchSummary) -> dict[str, A
 def sweep_json(result: Sweep) -> dict[str, Any]:
     return {
         "field": result.field,
+        "cautions": list(CAUTIONS),
         "points": [
             {
                 "value_si": p.value,
@@ -298,3 +305,8 @@ def sweep_json(result: Sweep) -> dict[str, Any]:
             for p in result.points
         ],
     }
+
+
+def merge_area_command_json(area: MergeArea) -> dict[str, Any]:
+    """The ``merge-area --json`` document: the figures and the cautions."""
+    return area_json(area) | {"cautions": list(CAUTIONS)}

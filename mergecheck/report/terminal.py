@@ -9,6 +9,7 @@ from rich.text import Text
 
 from ..assessment import SiteAssessment, summary_sentence
 from ..batch import BatchResult, BatchSummary
+from ..cautions import CAUTIONS
 from ..critical_gap_estimation import CriticalGapEstimate
 from ..figures import VehicleFigures
 from ..merge_area import MergeArea
@@ -86,7 +87,7 @@ def acceleration_view(run: AccelerationRun, system: UnitSystem) -> RenderableTyp
             f"{convert(v, 'speed', system):.1f}{marker}",
             f"{t:.1f}",
         )
-    return Group(head, Text(""), verdict, Text(""), rows)
+    return with_cautions(Group(head, Text(""), verdict, Text(""), rows))
 
 
 def vehicles_view(figures: list[VehicleFigures], system: UnitSystem) -> RenderableType:
@@ -103,7 +104,7 @@ def vehicles_view(figures: list[VehicleFigures], system: UnitSystem) -> Renderab
         held = ["> 250" if v is None else f"{convert(v, 'speed', system):.0f}" for _, v in f.sustained_speeds]
         start = "-" if f.level_distance is None else f"{show(f.level_distance, 'length', system)}, {f.level_time:.0f} s"
         table.add_row(f.vehicle.id, f.vehicle.model_name, wp, *held, start)
-    return table
+    return with_cautions(table)
 
 
 _VERDICT_STYLE = {"meets": "bold green", "short": "bold red", "cannot-reach": "bold red"}
@@ -238,8 +239,7 @@ def site_view(assessment: SiteAssessment, system: UnitSystem) -> RenderableType:
     assumptions.add_column("Source", ratio=5)
     for a in assessment.assumptions:
         assumptions.add_row(a.name, a.value, a.source)
-    parts += [Text(""), assumptions, Text(""), Text("Cautions", style="bold")]
-    parts += [Text(f"• {c}") for c in assessment.cautions]
+    parts += [Text(""), assumptions, cautions_block(assessment.cautions)]
     return Group(*parts)
 
 
@@ -259,7 +259,7 @@ def gaps_view(figures: GapFigures) -> RenderableType:
     table.add_row("P(headway >= critical gap)", f"{figures.p_headway_at_least:.4f}")
     table.add_row("Acceptable gaps", f"{figures.acceptable_gaps_per_h:.1f} per hour")
     table.add_row("Mean wait, stopped driver", f"{figures.mean_wait:.1f} s (random arrival, lag may be taken)")
-    return table
+    return with_cautions(table)
 
 
 def critical_gap_view(estimate: CriticalGapEstimate, source: str) -> RenderableType:
@@ -271,7 +271,7 @@ def critical_gap_view(estimate: CriticalGapEstimate, source: str) -> RenderableT
     table.add_row(
         "Standard deviation", "not estimated by this method" if estimate.sd is None else f"{estimate.sd:.2f} s"
     )
-    return table
+    return with_cautions(table)
 
 
 def merge_area_view(operations: MergeOperations, system: UnitSystem) -> RenderableType:
@@ -324,7 +324,7 @@ def queue_view(queue: QueueGrowth, system: UnitSystem) -> RenderableType:
         f"After {queue.duration / 60:.0f} min",
         f"back of queue {show(queue.length_after, 'length', system)} upstream, {queue.stored_after:.0f} vehicles gained",
     )
-    return table
+    return with_cautions(table)
 
 
 def area_view(area: MergeArea) -> RenderableType:
@@ -339,7 +339,7 @@ def area_view(area: MergeArea) -> RenderableType:
     for check in area.checks:
         state = Text("exceeded", style="bold red") if check.exceeded else Text("ok", style="green")
         table.add_row(check.name, Text.assemble(f"{check.demand_pc_h:.0f} / {check.capacity_pc_h:.0f} pc/h ", state))
-    return table
+    return with_cautions(table)
 
 
 def batch_view(results: list[BatchResult], summary: BatchSummary, system: UnitSystem) -> RenderableType:
@@ -386,7 +386,7 @@ def batch_view(results: list[BatchResult], summary: BatchSummary, system: UnitSy
             row["deficit"] or "-",
             row["speed_differential_at_lane_end"],
         )
-    return Group(head, Text(f"Short sites by governing vehicle: {by_vehicle}"), Text(""), table)
+    return with_cautions(Group(head, Text(f"Short sites by governing vehicle: {by_vehicle}"), Text(""), table))
 
 
 def sweep_view(result: Sweep, system: UnitSystem) -> RenderableType:
@@ -409,7 +409,7 @@ def sweep_view(result: Sweep, system: UnitSystem) -> RenderableType:
             needed,
             f"{g.merge.by_lane_end:.1%}",
         )
-    return table
+    return with_cautions(table)
 
 
 def _grid() -> Table:
@@ -418,3 +418,12 @@ def _grid() -> Table:
     table.add_column(style="bold")
     table.add_column()
     return table
+
+
+def cautions_block(cautions: tuple[str, ...] = CAUTIONS) -> RenderableType:
+    """The cautions every report carries."""
+    return Group(Text(""), Text("Cautions", style="bold"), *(Text(f"• {c}") for c in cautions))
+
+
+def with_cautions(body: RenderableType) -> RenderableType:
+    return Group(body, cautions_block())

@@ -1,0 +1,61 @@
+"""Every report carries the cautions: each command's terminal output and JSON document."""
+
+from __future__ import annotations
+
+from pathlib import Path
+from typing import Any
+
+import pytest
+
+from mergecheck.cautions import CAUTIONS
+
+EX = Path(__file__).parent.parent / "examples"
+COMMANDS = [
+    ["check", str(EX / "willowmere-level.yaml")],
+    ["accel", "--vehicle", "bus", "--from", "0 km/h", "--to", "60 km/h", "--grade", "2 %"],
+    ["gaps", "--flow", "900 veh/h", "--critical-gap", "3.5 s"],
+    ["critical-gap", str(EX / "critical-gaps-field.csv")],
+    [
+        "merge-area",
+        "--lanes",
+        "2",
+        "--mainline-flow",
+        "2000 pc/h",
+        "--ramp-flow",
+        "500 pc/h",
+        "--accel-length",
+        "300 m",
+        "--ffs",
+        "100 km/h",
+        "--ramp-ffs",
+        "60 km/h",
+    ],  # fmt: skip
+    [
+        "queue",
+        "--arrive",
+        "1800 veh/h",
+        "--arrive-speed",
+        "90 km/h",
+        "--discharge",
+        "1200 veh/h",
+        "--discharge-speed",
+        "15 km/h",
+    ],
+    ["sweep", str(EX / "willowmere-level.yaml"), "--vary", "lane_length=200 m:300 m:100 m"],
+]
+
+
+@pytest.mark.parametrize("args", COMMANDS, ids=[c[0] for c in COMMANDS])
+def test_terminal_and_json_carry_cautions(cli: Any, args: list[str]) -> None:
+    text = cli(*args)
+    assert text.code in (0, 1), text.stderr
+    assert "Cautions" in text.stdout and "licensed engineer" in text.stdout
+    document = cli(*args, "--json").json()
+    assert document["cautions"] == list(CAUTIONS)
+
+
+def test_batch_outputs_carry_cautions(cli: Any, tmp_path: Path) -> None:
+    report, data = tmp_path / "corridor.md", tmp_path / "corridor.json"
+    run = cli("batch", EX / "corridor", "--markdown", report, "--json", data)
+    assert "licensed engineer" in run.stdout and "licensed engineer" in report.read_text()
+    assert "licensed engineer" in data.read_text()
