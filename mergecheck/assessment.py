@@ -26,10 +26,10 @@ from dataclasses import dataclass
 from typing import Literal
 
 from .cautions import CAUTIONS
-from .gap_acceptance import MergeReliability, MonteCarloCheck, merge_reliability, monte_carlo_check
+from .gap_acceptance import CriticalGap, MergeReliability, MonteCarloCheck, merge_reliability, monte_carlo_check
 from .headways import HeadwayModel, headway_model
 from .merge_operations import MergeOperations, merge_operations
-from .policy import PolicyValue, initial_speed_for, load_policy, policy_minimum
+from .policy import PolicyTable, PolicyValue, initial_speed_for, load_policy, policy_minimum
 from .site import Site, SiteVehicle
 from .trajectory import Trajectory, accelerate
 from .units import show
@@ -85,6 +85,10 @@ class VehicleAssessment:
     large_differential: bool
     crawl_speed: float | None
     """Crawl speed on the final grade when below merge speed. [m/s]"""
+    critical_gap: CriticalGap
+    """Critical gap at speed across drivers."""
+    stop_critical_gap: CriticalGap
+    """Critical gap from a stop."""
     merge: MergeReliability
     """Gap acceptance in the adjacent lane along this vehicle's trajectory."""
     monte_carlo: MonteCarloCheck | None
@@ -207,6 +211,8 @@ def assess_vehicle(
         speed_differential_at_lane_end=differential,
         large_differential=differential > site.flag_speed_differential,
         crawl_speed=trajectory.crawl_speed,
+        critical_gap=entry.critical_gap,
+        stop_critical_gap=entry.stop_critical_gap,
         merge=merge,
         monte_carlo=simulated,
         length_needed=needed,
@@ -259,14 +265,12 @@ def assess(site: Site, *, monte_carlo: int = 0, seed: int = 20261202) -> SiteAss
     )
 
 
-def _initial_speed(site: Site, table: object) -> tuple[float, str]:
-    from .policy import PolicyTable
-
+def _initial_speed(site: Site, table: PolicyTable | None) -> tuple[float, str]:
     if site.controlling_speed is None:
         return 0.0, "ramp starts from a stop (stop line or ramp meter at station 0)"
     if site.initial_speed is not None:
         return site.initial_speed, "given in the site file"
-    if isinstance(table, PolicyTable):
+    if table is not None:
         value = initial_speed_for(table, site.controlling_speed)
         if value is not None:
             return value, f"the policy table's initial speed for this controlling speed ({table.title})"
@@ -342,13 +346,12 @@ def _assumptions(
     ]
     for r in results:
         v = r.vehicle
-        entry = next(e for e in site.vehicles if e.vehicle is v)
         items.append(
             Assumption(
                 f"{v.id}: critical gap",
-                f"at speed {entry.critical_gap.mean:.1f} s (sd {entry.critical_gap.sd:.1f} s); "
-                f"from a stop {entry.stop_critical_gap.mean:.1f} s (sd {entry.stop_critical_gap.sd:.1f} s), log-normal",
-                f"{entry.critical_gap.source}; from a stop: {entry.stop_critical_gap.source}",
+                f"at speed {r.critical_gap.mean:.1f} s (sd {r.critical_gap.sd:.1f} s); "
+                f"from a stop {r.stop_critical_gap.mean:.1f} s (sd {r.stop_critical_gap.sd:.1f} s), log-normal",
+                f"{r.critical_gap.source}; from a stop: {r.stop_critical_gap.source}",
             )
         )
         for parameter in v.parameters:

@@ -9,7 +9,7 @@ import argparse
 import os
 import sys
 import tempfile
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from pathlib import Path
 from typing import NoReturn
 
@@ -24,7 +24,7 @@ from .errors import InputError
 from .exception import design_exception
 from .figures import vehicle_figures
 from .headways import HEADWAY_MODELS, headway_model, mean_wait
-from .inputs import MAX_GRADE, ProfileFile, build_profile, read_yaml, validated
+from .inputs import ProfileFile, build_profile, check_grade, read_yaml, validated
 from .merge_area import merge_area, passenger_car_flow
 from .merge_operations import TRUCK_EQUIVALENT
 from .profile import VerticalProfile
@@ -34,10 +34,12 @@ from .shockwave import TrafficState, queue_growth
 from .site import SiteInput, load_site
 from .sweep import parse_range, sweep
 from .trajectory import accelerate
-from .units import parse_quantity
+from .units import counts_passenger_cars, parse_quantity
 from .vehicles import load_bundled, load_vehicle
 
 EXIT_OK, EXIT_SHORT, EXIT_INPUT = 0, 1, 2
+Handler = Callable[[argparse.Namespace, Console, Console], int]
+"""A command: parsed arguments, standard output and error consoles -> exit code."""
 
 
 class _Parser(argparse.ArgumentParser):
@@ -52,10 +54,12 @@ def build_parser() -> argparse.ArgumentParser:
     commands = parser.add_subparsers(dest="command", required=True, parser_class=_Parser)
 
     listing = commands.add_parser("vehicles", help="list the bundled design vehicles and their key figures")
+    listing.set_defaults(run=_vehicles)
     listing.add_argument("--units", choices=["si", "us"], default="si", help="unit system for display")
     listing.add_argument("--json", action="store_true", help="write JSON (SI values) to standard output")
 
     accel = commands.add_parser("accel", help="speed of one design vehicle along a grade or profile")
+    accel.set_defaults(run=_accel)
     accel.add_argument("--vehicle", required=True, help="bundled vehicle id or path of a profile file")
     accel.add_argument("--from", dest="initial", required=True, help="initial speed, e.g. '0 mph' or '50 km/h'")
     accel.add_argument("--to", dest="target", required=True, help="target speed, e.g. '53 mph'")
@@ -67,6 +71,7 @@ def build_parser() -> argparse.ArgumentParser:
     accel.add_argument("--json", action="store_true", help="write JSON (SI values) to standard output")
 
     check = commands.add_parser("check", help="check an entrance ramp's acceleration lane (a site file)")
+    check.set_defaults(run=_check)
     check.add_argument("site", help="site file (YAML)")
     check.add_argument("--units", choices=["si", "us"], default="si", help="unit system for display")
     check.add_argument(
@@ -87,9 +92,10 @@ def build_parser() -> argparse.ArgumentParser:
         help="also simulate N merging drivers per vehicle (seeded) as a check",
     )
 
-    commands.add_parser("schema", help="print the JSON Schema of the site file")
+    commands.add_parser("schema", help="print the JSON Schema of the site file").set_defaults(run=_schema)
 
     batch = commands.add_parser("batch", help="assess many sites: a folder of site files, a YAML list or a CSV")
+    batch.set_defaults(run=_batch)
     batch.add_argument("input", help="folder of site files, YAML file with a list of sites, or CSV (one site a row)")
     batch.add_argument("--units", choices=["si", "us"], default="si", help="unit system for display")
     batch.add_argument("--json", metavar="FILE", help="write every site's full check (SI) to FILE")
@@ -98,6 +104,7 @@ def build_parser() -> argparse.ArgumentParser:
     batch.add_argument("--workers", type=int, help="worker processes (default: all cores)")
 
     vary = commands.add_parser("sweep", help="rerun one site across a range of one input")
+    vary.set_defaults(run=_sweep)
     vary.add_argument("site", help="site file (YAML)")
     vary.add_argument(
         "--vary", required=True, help="FIELD=START:STOP:STEP with units, e.g. 'lane_length=200 m:600 m:50 m'"
@@ -106,6 +113,7 @@ def build_parser() -> argparse.ArgumentParser:
     vary.add_argument("--json", action="store_true", help="write JSON (SI values) to standard output")
 
     gaps = commands.add_parser("gaps", help="probability, rate and wait for gaps of a given length in one lane")
+    gaps.set_defaults(run=_gaps)
     gaps.add_argument("--flow", required=True, help="flow in the lane, e.g. '1400 veh/h'")
     gaps.add_argument("--critical-gap", required=True, help="critical gap, e.g. '3.5 s'")
     gaps.add_argument("--model", choices=sorted(HEADWAY_MODELS), default="exponential", help="headway model")
@@ -114,6 +122,7 @@ def build_parser() -> argparse.ArgumentParser:
     gaps.add_argument("--json", action="store_true", help="write JSON to standard output")
 
     area = commands.add_parser("merge-area", help="capacity-manual merge-area density, LOS and capacity checks")
+    area.set_defaults(run=_merge_area)
     area.add_argument("--lanes", type=int, required=True, help="through lanes per direction (2 to 4)")
     area.add_argument(
         "--mainline-flow", required=True, help="approaching mainline demand, e.g. '4000 pc/h' or '3600 veh/h'"
@@ -135,6 +144,7 @@ def build_parser() -> argparse.ArgumentParser:
     area.add_argument("--json", action="store_true", help="write JSON to standard output")
 
     queue = commands.add_parser("queue", help="shock wave and queue between an arriving and a queued state")
+    queue.set_defaults(run=_queue)
     queue.add_argument("--arrive", required=True, help="arriving flow, e.g. '4200 veh/h'")
     arrive = queue.add_mutually_exclusive_group(required=True)
     arrive.add_argument("--arrive-density", help="arriving density, e.g. '40 veh/km'")
@@ -148,6 +158,7 @@ def build_parser() -> argparse.ArgumentParser:
     queue.add_argument("--json", action="store_true", help="write JSON (SI values) to standard output")
 
     estimate = commands.add_parser("critical-gap", help="estimate critical gaps from field observations (CSV)")
+    estimate.set_defaults(run=_critical_gap)
     estimate.add_argument("observations", help="CSV with accepted_gap_s and largest_rejected_gap_s per driver")
     estimate.add_argument("--method", choices=sorted(ESTIMATORS), default="mle", help="estimator (default mle)")
     estimate.add_argument("--json", action="store_true", help="write JSON to standard output")
@@ -159,35 +170,14 @@ def main(argv: Sequence[str] | None = None) -> int:
     stdout = Console(width=100 if not sys.stdout.isatty() else None, highlight=False)
     stderr = Console(stderr=True, highlight=False)
     try:
-        match args.command:
-            case "vehicles":
-                return _vehicles(args, stdout)
-            case "accel":
-                return _accel(args, stdout)
-            case "check":
-                return _check(args, stdout)
-            case "gaps":
-                return _gaps(args, stdout)
-            case "merge-area":
-                return _merge_area(args, stdout)
-            case "queue":
-                return _queue(args, stdout)
-            case "critical-gap":
-                return _critical_gap(args, stdout)
-            case "batch":
-                return _batch(args, stdout, stderr)
-            case "sweep":
-                return _sweep(args, stdout)
-            case "schema":
-                sys.stdout.write(json_report.dumps(site_schema()))
-                return EXIT_OK
+        handler: Handler = args.run
+        return handler(args, stdout, stderr)
     except InputError as error:
         stderr.print(f"[bold red]mergecheck: error:[/] {error}", markup=True, soft_wrap=True)
         return EXIT_INPUT
-    raise AssertionError(f"unhandled command {args.command}")
 
 
-def _vehicles(args: argparse.Namespace, out: Console) -> int:
+def _vehicles(args: argparse.Namespace, out: Console, err: Console) -> int:
     figures = [vehicle_figures(v) for v in load_bundled()]
     if args.json:
         sys.stdout.write(json_report.dumps(json_report.vehicles_json(figures)))
@@ -196,7 +186,7 @@ def _vehicles(args: argparse.Namespace, out: Console) -> int:
     return EXIT_OK
 
 
-def _accel(args: argparse.Namespace, out: Console) -> int:
+def _accel(args: argparse.Namespace, out: Console, err: Console) -> int:
     vehicle = load_vehicle(args.vehicle)
     initial = parse_quantity(args.initial, "speed", source="command line", field="--from")
     target = parse_quantity(args.target, "speed", source="command line", field="--to")
@@ -225,7 +215,7 @@ def _accel(args: argparse.Namespace, out: Console) -> int:
     return EXIT_OK
 
 
-def _check(args: argparse.Namespace, out: Console) -> int:
+def _check(args: argparse.Namespace, out: Console, err: Console) -> int:
     if not 0 <= args.monte_carlo <= 10_000_000:
         raise InputError("command line", "--monte-carlo", "must lie between 0 and 10,000,000 drivers")
     assessment = assess(load_site(args.site), monte_carlo=args.monte_carlo)
@@ -255,7 +245,7 @@ def _check(args: argparse.Namespace, out: Console) -> int:
     return EXIT_OK if assessment.verdict == "meets" else EXIT_SHORT
 
 
-def _gaps(args: argparse.Namespace, out: Console) -> int:
+def _gaps(args: argparse.Namespace, out: Console, err: Console) -> int:
     flow = parse_quantity(args.flow, "flow", source="command line", field="--flow")
     gap = parse_quantity(args.critical_gap, "time", source="command line", field="--critical-gap")
     if not 0 < flow <= 3000 / 3600:
@@ -288,7 +278,7 @@ def _gaps(args: argparse.Namespace, out: Console) -> int:
     return EXIT_OK
 
 
-def _critical_gap(args: argparse.Namespace, out: Console) -> int:
+def _critical_gap(args: argparse.Namespace, out: Console, err: Console) -> int:
     observations = read_observations(args.observations)
     estimate = ESTIMATORS[args.method](observations)
     if args.json:
@@ -303,12 +293,12 @@ def _flow_pc_h(text: str, field: str, heavy: float, terrain: str, phf: float) ->
     value = parse_quantity(text, "flow", source="command line", field=field) * 3600
     if not 0 <= value <= 20_000:
         raise InputError("command line", field, "must lie between 0 and 20,000 per hour")
-    if "pc" in text or "passenger" in text:
+    if counts_passenger_cars(text):
         return value
     return passenger_car_flow(value, heavy, TRUCK_EQUIVALENT[terrain], phf)
 
 
-def _merge_area(args: argparse.Namespace, out: Console) -> int:
+def _merge_area(args: argparse.Namespace, out: Console, err: Console) -> int:
     if not 2 <= args.lanes <= 4:
         raise InputError("command line", "--lanes", "the manual's merge method covers 2 to 4 lanes per direction")
     if args.lanes_downstream is not None and not args.lanes <= args.lanes_downstream <= args.lanes + 2:
@@ -359,7 +349,7 @@ def _state(flow_text: str, density_text: str | None, speed_text: str | None, pre
     return TrafficState(flow, flow / speed)
 
 
-def _queue(args: argparse.Namespace, out: Console) -> int:
+def _queue(args: argparse.Namespace, out: Console, err: Console) -> int:
     arriving = _state(args.arrive, args.arrive_density, args.arrive_speed, "arrive")
     queued = _state(args.discharge, args.discharge_density, args.discharge_speed, "discharge")
     duration = parse_quantity(args.duration, "time", source="command line", field="--duration")
@@ -408,13 +398,18 @@ def _batch(args: argparse.Namespace, out: Console, err: Console) -> int:
     return EXIT_SHORT if summary.short else EXIT_OK
 
 
-def _sweep(args: argparse.Namespace, out: Console) -> int:
+def _sweep(args: argparse.Namespace, out: Console, err: Console) -> int:
     field, _, values = parse_range(args.vary)
     result = sweep(load_site(args.site), field, values)
     if args.json:
         sys.stdout.write(json_report.dumps(json_report.sweep_json(result)))
     else:
         out.print(terminal.sweep_view(result, args.units))
+    return EXIT_OK
+
+
+def _schema(args: argparse.Namespace, out: Console, err: Console) -> int:
+    sys.stdout.write(json_report.dumps(site_schema()))
     return EXIT_OK
 
 
@@ -428,8 +423,7 @@ def site_schema() -> dict[str, object]:
 
 def build_profile_from_grade(text: str) -> VerticalProfile:
     grade = parse_quantity(text, "grade", source="command line", field="--grade")
-    if abs(grade) > MAX_GRADE:
-        raise InputError("command line", "--grade", f"{text} is steeper than the {MAX_GRADE:.0%} any standard allows")
+    check_grade(grade, text, "command line", "--grade")
     return VerticalProfile.constant(grade)
 
 

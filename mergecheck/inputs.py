@@ -42,6 +42,12 @@ class ProfileFile(BaseModel):
     profile: list[GradePoint] = Field(min_length=1)
 
 
+def check_grade(grade: float, text: str, source: str, field: str) -> None:
+    """Refuse a grade steeper than any standard allows (MAX_GRADE)."""
+    if abs(grade) > MAX_GRADE:
+        raise InputError(source, field, f"{text} is steeper than the {MAX_GRADE:.0%} any standard allows")
+
+
 def build_profile(points: list[GradePoint], source: str, field: str) -> VerticalProfile:
     """Turn grade points into a :class:`VerticalProfile`, checking the rules.
 
@@ -56,10 +62,7 @@ def build_profile(points: list[GradePoint], source: str, field: str) -> Vertical
         where = f"{field}.{i}"
         station = parse_quantity(point.start, "length", source=source, field=f"{where}.from")
         grade = parse_quantity(point.grade, "grade", source=source, field=f"{where}.grade")
-        if abs(grade) > MAX_GRADE:
-            raise InputError(
-                source, f"{where}.grade", f"{point.grade} is steeper than the {MAX_GRADE:.0%} any standard allows"
-            )
+        check_grade(grade, point.grade, source, f"{where}.grade")
         curve = 0.0
         if point.vertical_curve is not None:
             curve = parse_quantity(point.vertical_curve, "length", source=source, field=f"{where}.vertical_curve")

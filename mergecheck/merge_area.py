@@ -44,8 +44,10 @@ LOS_THRESHOLDS = ((10.0, "A"), (20.0, "B"), (28.0, "C"), (35.0, "D"))
 """Upper density of each level of service in a merge influence area. [pc/mi/ln]"""
 _CAPACITY_BY_FFS = ((55.0, 2250.0), (60.0, 2300.0), (65.0, 2350.0), (70.0, 2400.0))
 """Basic freeway segment capacity by free-flow speed [mi/h -> pc/h/ln]."""
-_RAMP_CAPACITY = ((50.0, 2200.0, 4400.0), (40.0, 2100.0, 4100.0), (30.0, 2000.0, 3800.0), (19.999, 1900.0, 3500.0))
-"""(ramp FFS above [mi/h], one-lane, two-lane capacity [pc/h]), from memory of HCM Exhibit 14-12."""
+_RAMP_CAPACITY = ((50.0, (2200.0, 4400.0)), (40.0, (2100.0, 4100.0)), (30.0, (2000.0, 3800.0)))
+"""(ramp FFS above [mi/h], (one-lane, two-lane) capacity [pc/h]), from memory of HCM Exhibit 14-12."""
+_RAMP_20_30 = (1900.0, 3500.0)
+_SLOW_RAMP = (1800.0, 3200.0)
 MI_PER_KM = 0.621371192
 
 Los = Literal["A", "B", "C", "D", "E", "F"]
@@ -122,10 +124,9 @@ def ramp_capacity(ramp_free_flow_speed_mph: float, ramp_lanes: int = 1) -> float
     One lane: 2200 above 50 mi/h, 2100 above 40, 2000 above 30, 1900 from 20, 1800 below 20;
     two lanes: 4400, 4100, 3800, 3500, 3200.
     """
-    for bound, one, two in _RAMP_CAPACITY:
-        if ramp_free_flow_speed_mph > bound:
-            return one if ramp_lanes == 1 else two
-    return 1800.0 if ramp_lanes == 1 else 3200.0
+    speed = ramp_free_flow_speed_mph
+    row = next((r for bound, r in _RAMP_CAPACITY if speed > bound), _SLOW_RAMP if speed < 20 else _RAMP_20_30)
+    return row[0] if ramp_lanes == 1 else row[1]
 
 
 def merge_influence_share(

@@ -24,7 +24,7 @@ from .gap_acceptance import CriticalGap, default_critical_gaps
 from .inputs import GradePoint, build_profile, read_yaml, validated
 from .profile import VerticalProfile
 from .units import parse_quantity
-from .vehicles import DesignVehicle, bundled_ids, load_vehicle
+from .vehicles import DesignVehicle, load_vehicle
 
 SHARE_TOLERANCE = 1e-3
 AFTER_PEAK = 6 * 3600.0
@@ -400,7 +400,7 @@ def site_from_input(data: SiteInput, source: str) -> Site:
         field = f"ramp.vehicles.{ref}"
         if not 0 < share <= 1:
             raise InputError(source, field, "a share must be greater than 0 and at most 1")
-        vehicle = _site_vehicle(ref, base_dir, source, field)
+        vehicle = load_vehicle(ref, relative_to=base_dir, source=source, field=field)
         differential = base_differential
         override = data.criteria.vehicles.get(ref)
         if override is not None and override.merge_speed_differential is not None:
@@ -580,18 +580,6 @@ def _merge_settings(
         jam_density=jam,
         demand_profile=profile,
     )
-
-
-def _site_vehicle(ref: str, base_dir: Path, source: str, field: str) -> DesignVehicle:
-    looks_like_path = ref.endswith((".yaml", ".yml")) or "/" in ref
-    if looks_like_path:
-        path = Path(ref) if Path(ref).is_absolute() else base_dir / ref
-        return load_vehicle(str(path))
-    if ref not in bundled_ids():
-        raise InputError(
-            source, field, f"unknown vehicle id; known ids: {', '.join(bundled_ids())}, or a profile file path"
-        )
-    return load_vehicle(ref)
 
 
 def _policy_path(policy: str | None, base_dir: Path) -> str | None:

@@ -83,6 +83,18 @@ def parse_quantity(text: object, kind: str, *, source: str, field: str) -> float
     return value
 
 
+def counts_passenger_cars(text: str) -> bool:
+    """Whether a flow was written in passenger cars (pc, pcu) rather than vehicles; call after parse_quantity."""
+    return "passenger_car" in str(ureg.Quantity(text.strip()).units)
+
+
+def number(si_value: float | None, kind: str, system: UnitSystem) -> str:
+    """A value in the display unit without its symbol, lengths to the unit and others to one decimal; '-' for none."""
+    if si_value is None:
+        return "-"
+    return f"{convert(si_value, kind, system):.{0 if kind == 'length' else 1}f}"
+
+
 def _bad(source: str, field: str, rule: str) -> Exception:
     from .errors import InputError
 

@@ -151,8 +151,14 @@ def bundled_ids() -> list[str]:
     return sorted(p.name.removesuffix(".yaml") for p in bundled_profiles().iterdir() if p.name.endswith(".yaml"))
 
 
-def load_vehicle(ref: str) -> DesignVehicle:
+def load_vehicle(
+    ref: str, *, relative_to: Path | None = None, source: str = "vehicle", field: str = ""
+) -> DesignVehicle:
     """Load a design vehicle by bundled id or by the path of a profile file.
+
+    A relative path is taken from ``relative_to`` when given (the folder of
+    the site file that names it). ``source`` and ``field`` say where the
+    reference was written, for the unknown-id message.
 
     Raises
     ------
@@ -162,15 +168,15 @@ def load_vehicle(ref: str) -> DesignVehicle:
     """
     looks_like_path = ref.endswith((".yaml", ".yml")) or "/" in ref or "\\" in ref
     if looks_like_path:
-        path = Path(ref)
+        path = Path(ref) if relative_to is None or Path(ref).is_absolute() else relative_to / ref
         try:
             text = path.read_text(encoding="utf-8")
         except OSError as error:
-            raise InputError(ref, "", f"cannot read the vehicle profile: {error.strerror}") from None
-        return parse_vehicle(text, ref)
+            raise InputError(str(path), "", f"cannot read the vehicle profile: {error.strerror}") from None
+        return parse_vehicle(text, str(path))
     if ref not in bundled_ids():
         raise InputError(
-            "vehicle", ref, f"unknown vehicle id; known ids: {', '.join(bundled_ids())}, or a profile file path"
+            source, field or ref, f"unknown vehicle id; known ids: {', '.join(bundled_ids())}, or a profile file path"
         )
     text = (bundled_profiles() / f"{ref}.yaml").read_text(encoding="utf-8")
     return parse_vehicle(text, ref)

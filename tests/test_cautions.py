@@ -29,7 +29,7 @@ COMMANDS = [
         "100 km/h",
         "--ramp-ffs",
         "60 km/h",
-    ],  # fmt: skip
+    ],
     [
         "queue",
         "--arrive",

@@ -5,12 +5,11 @@ from __future__ import annotations
 import json
 from typing import Any
 
-from ..assessment import SiteAssessment, VehicleAssessment
+from ..assessment import SiteAssessment
 from ..batch import BatchResult, BatchSummary
 from ..cautions import CAUTIONS
 from ..critical_gap_estimation import CriticalGapEstimate
 from ..figures import VehicleFigures
-from ..gap_acceptance import CriticalGap
 from ..merge_area import MergeArea
 from ..merge_operations import MergeOperations
 from ..results import AccelerationRun, GapFigures
@@ -65,10 +64,6 @@ def vehicles_json(figures: list[VehicleFigures]) -> list[dict[str, Any]]:
         }
         for f in figures
     ]
-
-
-def _gap(assessment: SiteAssessment, result: VehicleAssessment) -> CriticalGap:
-    return next(e.critical_gap for e in assessment.site.vehicles if e.vehicle is result.vehicle)
 
 
 def dumps(document: Any) -> str:
@@ -129,7 +124,7 @@ def site_json(assessment: SiteAssessment) -> dict[str, Any]:
                 "forced_merges_per_h": _number(v.merge.forced_merges_per_h, 3),
                 "stops_per_h": _number(v.merge.stops_per_h, 3),
                 "mean_stopped_wait_s": _number(v.merge.mean_stopped_wait, 3),
-                "critical_gap_s": {"mean": v_gap.mean, "sd": v_gap.sd},
+                "critical_gap_s": {"mean": v.critical_gap.mean, "sd": v.critical_gap.sd},
                 "monte_carlo": None
                 if v.monte_carlo is None
                 else {
@@ -139,7 +134,7 @@ def site_json(assessment: SiteAssessment) -> dict[str, Any]:
                     "standard_error": _number(v.monte_carlo.standard_error),
                 },
             }
-            for v, v_gap in ((v, _gap(assessment, v)) for v in assessment.vehicles)
+            for v in assessment.vehicles
         ],
         "policy": None
         if policy is None

@@ -6,7 +6,7 @@ from ..assessment import SiteAssessment, summary_sentence
 from ..batch import BatchResult, BatchSummary
 from ..cautions import CAUTIONS
 from ..exception import DesignException
-from ..units import UnitSystem, convert, show, unit_symbol
+from ..units import UnitSystem, number, show, unit_symbol
 from .table_rows import batch_row
 from .wording import clearing, mitigation_change
 
@@ -14,10 +14,6 @@ from .wording import clearing, mitigation_change
 def _cell(text: object) -> str:
     """Text safe inside a Markdown table cell."""
     return str(text).replace("\\", "\\\\").replace("|", "\\|").replace("\n", " ")
-
-
-def _num(value: float | None, kind: str, system: UnitSystem) -> str:
-    return "-" if value is None else f"{convert(value, kind, system):.{0 if kind == 'length' else 1}f}"
 
 
 def site_markdown(assessment: SiteAssessment, system: UnitSystem, exception: DesignException | None = None) -> str:
@@ -65,9 +61,9 @@ def site_markdown(assessment: SiteAssessment, system: UnitSystem, exception: Des
     for v in assessment.vehicles:
         flag = " ⚑ large" if v.large_differential else ""
         lines.append(
-            f"| `{v.vehicle.id}` | {_num(v.merge_speed, 'speed', system)} | {_num(v.speed_at_convergence, 'speed', system)} | "
-            f"{_num(v.speed_at_taper_start, 'speed', system)} | {_num(v.speed_at_taper_end, 'speed', system)} | "
-            f"{_num(v.speed_differential_at_lane_end, 'speed', system)}{flag} | {_num(v.crawl_speed, 'speed', system)} |"
+            f"| `{v.vehicle.id}` | {number(v.merge_speed, 'speed', system)} | {number(v.speed_at_convergence, 'speed', system)} | "
+            f"{number(v.speed_at_taper_start, 'speed', system)} | {number(v.speed_at_taper_end, 'speed', system)} | "
+            f"{number(v.speed_differential_at_lane_end, 'speed', system)}{flag} | {number(v.crawl_speed, 'speed', system)} |"
         )
     lines += [
         "",
@@ -84,10 +80,10 @@ def site_markdown(assessment: SiteAssessment, system: UnitSystem, exception: Des
         "|---|--:|--:|--:|--:|--:|---|",
     ]
     for v in assessment.vehicles:
-        required = "never reached" if v.required_length is None else _num(v.required_length, "length", system)
+        required = "never reached" if v.required_length is None else number(v.required_length, "length", system)
         lines.append(
-            f"| `{v.vehicle.id}` | {v.share:.0%} | {required} | {_num(v.merge.length_for_reliability, 'length', system)} | "
-            f"{_num(v.available_length, 'length', system)} | {_num(v.deficit, 'length', system)} | **{v.verdict}** |"
+            f"| `{v.vehicle.id}` | {v.share:.0%} | {required} | {number(v.merge.length_for_reliability, 'length', system)} | "
+            f"{number(v.available_length, 'length', system)} | {number(v.deficit, 'length', system)} | **{v.verdict}** |"
         )
     lines += [
         "",

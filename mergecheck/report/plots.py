@@ -89,6 +89,22 @@ def _landmarks(ax: Axes, assessment: SiteAssessment, system: UnitSystem, labels:
             )
 
 
+def _vehicle_line(index: int) -> dict[str, Any]:
+    """Colour, line style and width of the index-th design vehicle's curve."""
+    return {"color": PALETTE[index % 6], "linestyle": LINES[index % 6], "linewidth": 1.6}
+
+
+def _distance_axes(
+    ax: Axes, assessment: SiteAssessment, system: UnitSystem, end: float, ylabel: str, labels_at_bottom: bool = False
+) -> None:
+    """Landmarks, the distance axis from the end of the controlling curve, the y label and the legend."""
+    _landmarks(ax, assessment, system, labels=True, at_bottom=labels_at_bottom)
+    ax.set_xlim(0, convert(end, "length", system))
+    ax.set_xlabel(f"Distance from the end of the controlling curve ({unit_symbol('length', system)})")
+    ax.set_ylabel(ylabel)
+    ax.legend(loc="lower right", fontsize=7, frameon=False)
+
+
 def _x_limit(assessment: SiteAssessment) -> float:
     site = assessment.site
     reach = [v.merge_station for v in assessment.vehicles if v.merge_station is not None]
@@ -141,14 +157,7 @@ def speed_figure(assessment: SiteAssessment, system: UnitSystem) -> str:
     for i, v in enumerate(assessment.vehicles):
         t = v.trajectory
         keep = t.station <= end
-        ax.plot(
-            c(t.station[keep]),
-            s(t.speed[keep]),
-            linewidth=1.6,
-            label=v.vehicle.id,
-            color=PALETTE[i % 6],
-            linestyle=LINES[i % 6],
-        )
+        ax.plot(c(t.station[keep]), s(t.speed[keep]), label=v.vehicle.id, **_vehicle_line(i))
         if v.merge_station is not None and v.merge_station <= end:
             ax.plot(c(v.merge_station), s(v.merge_speed), marker=MARKERS[i % 6], color=PALETTE[i % 6], markersize=6)
         elif v.crawl_speed is not None:
@@ -166,12 +175,8 @@ def speed_figure(assessment: SiteAssessment, system: UnitSystem) -> str:
     ax.axhline(s(site.operating_speed), color=INK, linewidth=1.0, linestyle=(0, (1, 2)))
     ax.annotate(f"mainline operating speed {s(site.operating_speed):.0f}", (c(end) * 0.5, s(site.operating_speed)),
                 textcoords="offset points", xytext=(2, 2), fontsize=7)  # fmt: skip
-    _landmarks(ax, assessment, system, labels=True, at_bottom=True)
-    ax.set_xlim(0, c(end))
     ax.set_ylim(0, s(site.operating_speed) * 1.1)
-    ax.set_xlabel(f"Distance from the end of the controlling curve ({unit_symbol('length', system)})")
-    ax.set_ylabel(f"Speed ({unit_symbol('speed', system)})")
-    ax.legend(loc="lower right", fontsize=7, frameon=False)
+    _distance_axes(ax, assessment, system, end, f"Speed ({unit_symbol('speed', system)})", labels_at_bottom=True)
     return _svg(fig)
 
 
@@ -183,23 +188,12 @@ def merge_figure(assessment: SiteAssessment, system: UnitSystem) -> str:
     for i, v in enumerate(assessment.vehicles):
         m = v.merge
         keep = m.station <= end
-        ax.plot(
-            c(m.station[keep]),
-            m.probability[keep],
-            color=PALETTE[i % 6],
-            linestyle=LINES[i % 6],
-            linewidth=1.6,
-            label=v.vehicle.id,
-        )
+        ax.plot(c(m.station[keep]), m.probability[keep], label=v.vehicle.id, **_vehicle_line(i))
     target = assessment.site.gaps.reliability
     ax.axhline(target, color=INK, linewidth=0.8, linestyle=(0, (6, 3)))
     ax.annotate(f"target {target:.0%}", (c(end) * 0.5, target), textcoords="offset points", xytext=(2, 2), fontsize=7)
-    _landmarks(ax, assessment, system, labels=True)
-    ax.set_xlim(0, c(end))
     ax.set_ylim(0, 1.02)
-    ax.set_xlabel(f"Distance from the end of the controlling curve ({unit_symbol('length', system)})")
-    ax.set_ylabel("Probability of having merged")
-    ax.legend(loc="lower right", fontsize=7, frameon=False)
+    _distance_axes(ax, assessment, system, end, "Probability of having merged")
     return _svg(fig)
 
 

@@ -17,7 +17,7 @@ from ..merge_operations import MergeOperations
 from ..results import AccelerationRun, GapFigures
 from ..shockwave import QueueGrowth
 from ..sweep import Sweep
-from ..units import UnitSystem, convert, show, unit_symbol
+from ..units import UnitSystem, convert, number, show, unit_symbol
 from .table_rows import batch_row
 from .wording import clearing
 
@@ -153,12 +153,12 @@ def site_view(assessment: SiteAssessment, system: UnitSystem) -> RenderableType:
         diff = f"{convert(v.speed_differential_at_lane_end, 'speed', system):.1f}"
         speeds.add_row(
             v.vehicle.id,
-            _num(v.merge_speed, "speed", system),
-            _num(v.speed_at_convergence, "speed", system),
-            _num(v.speed_at_taper_start, "speed", system),
-            _num(v.speed_at_taper_end, "speed", system),
+            number(v.merge_speed, "speed", system),
+            number(v.speed_at_convergence, "speed", system),
+            number(v.speed_at_taper_start, "speed", system),
+            number(v.speed_at_taper_end, "speed", system),
             Text(diff + (" ⚑" if v.large_differential else ""), style="red" if v.large_differential else ""),
-            _num(v.crawl_speed, "speed", system),
+            number(v.crawl_speed, "speed", system),
         )
 
     policy = assessment.policy
@@ -169,23 +169,23 @@ def site_view(assessment: SiteAssessment, system: UnitSystem) -> RenderableType:
         lengths.add_column(f"{heading} ({unit_l})", justify="right")
     lengths.add_column("Verdict")
     for v in assessment.vehicles:
-        required = "never" if v.required_length is None else _num(v.required_length, "length", system)
-        deficit = "-" if v.deficit is None else _num(v.deficit, "length", system)
+        required = "never" if v.required_length is None else number(v.required_length, "length", system)
+        deficit = "-" if v.deficit is None else number(v.deficit, "length", system)
         lengths.add_row(
             v.vehicle.id,
             f"{v.share:.0%}",
             required,
-            "-" if v.merge.length_for_reliability is None else _num(v.merge.length_for_reliability, "length", system),
-            _num(v.available_length, "length", system),
+            "-" if v.merge.length_for_reliability is None else number(v.merge.length_for_reliability, "length", system),
+            number(v.available_length, "length", system),
             deficit,
             Text(v.verdict, style=_VERDICT_STYLE[v.verdict]),
         )
     if policy is not None:
-        value = "none" if policy.minimum_length is None else _num(policy.minimum_length, "length", system)
+        value = "none" if policy.minimum_length is None else number(policy.minimum_length, "length", system)
         basis = policy.note
         if policy.merge_speed is not None:
             basis += f"; assumes merge at {show(policy.merge_speed, 'speed', system)}"
-        lengths.add_row("policy minimum", "", value, "", _num(site.available_length, "length", system), "", "")
+        lengths.add_row("policy minimum", "", value, "", number(site.available_length, "length", system), "", "")
 
     merging = Table(
         title=f"Merging into the adjacent lane ({site.adjacent_lane_flow * 3600:.0f} veh/h)", title_justify="left"
@@ -241,10 +241,6 @@ def site_view(assessment: SiteAssessment, system: UnitSystem) -> RenderableType:
         assumptions.add_row(a.name, a.value, a.source)
     parts += [Text(""), assumptions, cautions_block(assessment.cautions)]
     return Group(*parts)
-
-
-def _num(value: float | None, kind: str, system: UnitSystem) -> str:
-    return "-" if value is None else f"{convert(value, kind, system):.{0 if kind == 'length' else 1}f}"
 
 
 def gaps_view(figures: GapFigures) -> RenderableType:
