@@ -166,7 +166,7 @@ def assess_vehicle(
         stop_critical_gap=entry.stop_critical_gap,
         reliability=site.gaps.reliability,
         flow=entry.share * site.ramp_flow,
-        search_length=available + site.taper_length + RELIABILITY_SEARCH,
+        search_length=site.taper_end - site.convergence + RELIABILITY_SEARCH,  # as far as the trajectory
     )
     simulated = None
     if monte_carlo > 0:

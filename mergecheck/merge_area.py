@@ -80,20 +80,24 @@ class MergeArea:
     vr12_pc_h: float
     density_pc_mi_ln: float
     los: Los
-    checks: tuple[CapacityCheck, ...]
+    downstream: CapacityCheck
+    """Demand against the capacity of the freeway section downstream of the merge."""
+    influence_area: CapacityCheck
+    """Flow entering the ramp influence area against the maximum desirable."""
+    ramp_roadway: CapacityCheck
 
     @property
     def density_pc_km_ln(self) -> float:
         return self.density_pc_mi_ln * MI_PER_KM
 
     @property
-    def downstream(self) -> CapacityCheck:
-        return self.checks[0]
+    def checks(self) -> tuple[CapacityCheck, ...]:
+        return (self.downstream, self.influence_area, self.ramp_roadway)
 
     @property
     def breaks_down(self) -> bool:
         """Demand exceeds the capacity of the section downstream of the merge (or of the ramp)."""
-        return self.downstream.exceeded or self.checks[2].exceeded
+        return breaks_down(self.downstream, self.ramp_roadway)
 
 
 def passenger_car_flow(
@@ -146,6 +150,11 @@ def merge_influence_share(
     raise ValueError(f"the HCM merge method covers 2 to 4 lanes per direction, not {lanes}")
 
 
+def breaks_down(downstream: CapacityCheck, ramp_roadway: CapacityCheck) -> bool:
+    """Demand exceeds capacity downstream of the merge or on the ramp: level of service F."""
+    return downstream.exceeded or ramp_roadway.exceeded
+
+
 def level_of_service(density_pc_mi_ln: float, demand_exceeds_capacity: bool) -> Los:
     """LOS of a merge influence area from its density [pc/mi/ln]."""
     if demand_exceeds_capacity:
@@ -185,22 +194,14 @@ def merge_area(
     vr12 = v12 + ramp_pc_h
     density = 5.475 + 0.00734 * ramp_pc_h + 0.0078 * v12 - 0.00627 * acceleration_length_ft  # Eq. 14-22
     down_lanes = lanes_downstream or lanes
-    checks = (
-        CapacityCheck(
-            name="downstream freeway section",
-            demand_pc_h=mainline_pc_h + ramp_pc_h,
-            capacity_pc_h=down_lanes * freeway_capacity_per_lane(free_flow_speed_mph),
-        ),
-        CapacityCheck(
-            name="flow entering the influence area", demand_pc_h=vr12, capacity_pc_h=MAX_DESIRABLE_INFLUENCE_FLOW
-        ),
-        CapacityCheck(
-            name="ramp roadway",
-            demand_pc_h=ramp_pc_h,
-            capacity_pc_h=ramp_capacity(ramp_free_flow_speed_mph, ramp_lanes),
-        ),
+    downstream = CapacityCheck(
+        name="downstream freeway section",
+        demand_pc_h=mainline_pc_h + ramp_pc_h,
+        capacity_pc_h=down_lanes * freeway_capacity_per_lane(free_flow_speed_mph),
     )
-    failed = checks[0].exceeded or checks[2].exceeded
+    ramp = CapacityCheck(
+        name="ramp roadway", demand_pc_h=ramp_pc_h, capacity_pc_h=ramp_capacity(ramp_free_flow_speed_mph, ramp_lanes)
+    )
     return MergeArea(
         lanes=lanes,
         mainline_pc_h=mainline_pc_h,
@@ -210,6 +211,10 @@ def merge_area(
         v12_pc_h=v12,
         vr12_pc_h=vr12,
         density_pc_mi_ln=max(density, 0.0),
-        los=level_of_service(density, failed),
-        checks=checks,
+        los=level_of_service(density, breaks_down(downstream, ramp)),
+        downstream=downstream,
+        influence_area=CapacityCheck(
+            name="flow entering the influence area", demand_pc_h=vr12, capacity_pc_h=MAX_DESIRABLE_INFLUENCE_FLOW
+        ),
+        ramp_roadway=ramp,
     )

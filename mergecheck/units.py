@@ -83,6 +83,11 @@ def parse_quantity(text: object, kind: str, *, source: str, field: str) -> float
     return value
 
 
+def si_unit(kind: str) -> str:
+    """The SI unit a kind of quantity is stored in, e.g. 'kg/W' for a weight-to-power ratio."""
+    return _KINDS[kind][0]
+
+
 def counts_passenger_cars(text: str) -> bool:
     """Whether a flow was written in passenger cars (pc, pcu) rather than vehicles; call after parse_quantity."""
     return "passenger_car" in str(ureg.Quantity(text.strip()).units)

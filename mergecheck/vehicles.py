@@ -41,7 +41,7 @@ from .acceleration import AccelerationModel, LinearDecreasing, PowerLimited, Tab
 from .dynamics import PowerLimitedVehicle
 from .errors import InputError
 from .inputs import parse_yaml, validated
-from .units import parse_quantity
+from .units import parse_quantity, si_unit
 
 Category = Literal["passenger-car", "truck", "bus", "recreational"]
 
@@ -294,16 +294,7 @@ def _read(
 def _range(spec: Spec) -> str:
     if spec.kind == "ratio":
         return f"{spec.low:g} to {spec.high:g}"
-    si = {
-        "mass": "kg",
-        "power": "W",
-        "weight_to_power": "kg/W",
-        "area": "m^2",
-        "speed": "m/s",
-        "acceleration": "m/s^2",
-        "frequency": "1/s",
-    }[spec.kind]
-    return f"{spec.low:g} to {spec.high:g} {si}"
+    return f"{spec.low:g} to {spec.high:g} {si_unit(spec.kind)}"
 
 
 def _tabulated(table: _Table, grade_response: float, source: str) -> Tabulated:
