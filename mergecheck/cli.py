@@ -11,9 +11,9 @@ import sys
 import tempfile
 from collections.abc import Callable, Sequence
 from pathlib import Path
-from typing import NoReturn
+from typing import Any, NoReturn
 
-from rich.console import Console
+from rich.console import Console, RenderableType
 from rich.progress import MofNCompleteColumn, Progress
 
 from . import __version__
@@ -179,11 +179,9 @@ def main(argv: Sequence[str] | None = None) -> int:
 
 def _vehicles(args: argparse.Namespace, out: Console, err: Console) -> int:
     figures = [vehicle_figures(v) for v in load_bundled()]
-    if args.json:
-        sys.stdout.write(json_report.dumps(json_report.vehicles_json(figures)))
-    else:
-        out.print(terminal.vehicles_view(figures, args.units))
-    return EXIT_OK
+    return _show(
+        args, out, lambda: json_report.vehicles_json(figures), lambda: terminal.vehicles_view(figures, args.units)
+    )
 
 
 def _accel(args: argparse.Namespace, out: Console, err: Console) -> int:
@@ -208,11 +206,9 @@ def _accel(args: argparse.Namespace, out: Console, err: Console) -> int:
         )
     trajectory = accelerate(vehicle.model, profile, initial, target, elevation=elevation)
     run = AccelerationRun(vehicle=vehicle, profile=profile, elevation=elevation, trajectory=trajectory)
-    if args.json:
-        sys.stdout.write(json_report.dumps(json_report.acceleration_json(run)))
-    else:
-        out.print(terminal.acceleration_view(run, args.units))
-    return EXIT_OK
+    return _show(
+        args, out, lambda: json_report.acceleration_json(run), lambda: terminal.acceleration_view(run, args.units)
+    )
 
 
 def _check(args: argparse.Namespace, out: Console, err: Console) -> int:
@@ -271,21 +267,18 @@ def _gaps(args: argparse.Namespace, out: Console, err: Console) -> int:
         acceptable_gaps_per_h=flow * p * 3600,
         mean_wait=float(mean_wait(model, gap)),
     )
-    if args.json:
-        sys.stdout.write(json_report.dumps(json_report.gaps_json(figures)))
-    else:
-        out.print(terminal.gaps_view(figures))
-    return EXIT_OK
+    return _show(args, out, lambda: json_report.gaps_json(figures), lambda: terminal.gaps_view(figures))
 
 
 def _critical_gap(args: argparse.Namespace, out: Console, err: Console) -> int:
     observations = read_observations(args.observations)
     estimate = ESTIMATORS[args.method](observations)
-    if args.json:
-        sys.stdout.write(json_report.dumps(json_report.critical_gap_json(estimate, args.observations)))
-    else:
-        out.print(terminal.critical_gap_view(estimate, args.observations))
-    return EXIT_OK
+    return _show(
+        args,
+        out,
+        lambda: json_report.critical_gap_json(estimate, args.observations),
+        lambda: terminal.critical_gap_view(estimate, args.observations),
+    )
 
 
 def _flow_pc_h(text: str, field: str, heavy: float, terrain: str, phf: float) -> float:
@@ -326,11 +319,7 @@ def _merge_area(args: argparse.Namespace, out: Console, err: Console) -> int:
         ramp_free_flow_speed_mph=speeds["--ramp-ffs"] / 0.44704,
         lanes_downstream=args.lanes_downstream,
     )
-    if args.json:
-        sys.stdout.write(json_report.dumps(json_report.merge_area_command_json(result)))
-    else:
-        out.print(terminal.area_view(result))
-    return EXIT_OK
+    return _show(args, out, lambda: json_report.merge_area_command_json(result), lambda: terminal.area_view(result))
 
 
 def _state(flow_text: str, density_text: str | None, speed_text: str | None, prefix: str) -> TrafficState:
@@ -358,11 +347,7 @@ def _queue(args: argparse.Namespace, out: Console, err: Console) -> int:
     if arriving.density == queued.density:
         raise InputError("command line", "--discharge-density", "the two states must differ in density")
     result = queue_growth(arriving, queued, duration)
-    if args.json:
-        sys.stdout.write(json_report.dumps(json_report.queue_json(result)))
-    else:
-        out.print(terminal.queue_view(result, args.units))
-    return EXIT_OK
+    return _show(args, out, lambda: json_report.queue_json(result), lambda: terminal.queue_view(result, args.units))
 
 
 def _batch(args: argparse.Namespace, out: Console, err: Console) -> int:
@@ -401,10 +386,17 @@ def _batch(args: argparse.Namespace, out: Console, err: Console) -> int:
 def _sweep(args: argparse.Namespace, out: Console, err: Console) -> int:
     field, _, values = parse_range(args.vary)
     result = sweep(load_site(args.site), field, values)
+    return _show(args, out, lambda: json_report.sweep_json(result), lambda: terminal.sweep_view(result, args.units))
+
+
+def _show(
+    args: argparse.Namespace, out: Console, document: Callable[[], Any], view: Callable[[], RenderableType]
+) -> int:
+    """JSON on standard output when asked for, the terminal view otherwise; the command is done."""
     if args.json:
-        sys.stdout.write(json_report.dumps(json_report.sweep_json(result)))
+        sys.stdout.write(json_report.dumps(document()))
     else:
-        out.print(terminal.sweep_view(result, args.units))
+        out.print(view())
     return EXIT_OK
 
 
