@@ -19,8 +19,9 @@ arrays. Three families compete; choose one by its registry name:
 
 from __future__ import annotations
 
-from dataclasses import dataclass
-from typing import Protocol
+from collections.abc import Hashable, Sequence
+from dataclasses import dataclass, fields, is_dataclass
+from typing import Any, Protocol
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
@@ -182,3 +183,104 @@ def model_entry(name: str) -> ModelEntry:
     except KeyError:
         valid = ", ".join(sorted(ACCELERATION_MODELS))
         raise KeyError(f"unknown acceleration model {name!r}; valid models: {valid}") from None
+
+
+@dataclass(frozen=True, slots=True)
+class ModelStack:
+    """Many vehicles' models side by side, for integrating them at once.
+
+    Models of the same family and shape (e.g. every linear-decreasing car
+    with a power-limited capability) are merged into one instance of their
+    class whose numeric fields hold arrays, one value per vehicle; the
+    model's own ``acceleration`` then runs element by element over numpy
+    arrays. Each group covers a contiguous run of columns, so a vehicle's
+    value never depends on which other vehicles share the stack.
+    """
+
+    bounds: tuple[tuple[int, int], ...]
+    """Column range of each group."""
+    models: tuple[AccelerationModel, ...]
+    """One stacked model per group."""
+
+    @classmethod
+    def of(cls, models: Sequence[AccelerationModel]) -> tuple[NDArray[np.intp], ModelStack]:
+        """Stack models; returns the column order (indices into ``models``) and the stack."""
+        groups: dict[Hashable, list[int]] = {}
+        for i, model in enumerate(models):
+            groups.setdefault(_shape(model), []).append(i)
+        order = np.array([i for members in groups.values() for i in members], dtype=np.intp)
+        bounds, stacked, start = [], [], 0
+        for members in groups.values():
+            bounds.append((start, start + len(members)))
+            stacked.append(_stack([models[i] for i in members]))
+            start += len(members)
+        return order, cls(tuple(bounds), tuple(stacked))
+
+    def take(self, columns: NDArray[np.intp]) -> ModelStack:
+        """The stack restricted to some columns (sorted)."""
+        bounds, stacked, start = [], [], 0
+        for (lo, hi), model in zip(self.bounds, self.models, strict=True):
+            first, last = (int(i) for i in np.searchsorted(columns, [lo, hi]))
+            if last > first:
+                bounds.append((start, start + last - first))
+                stacked.append(_take(model, columns[first:last] - lo))
+                start += last - first
+        return ModelStack(tuple(bounds), tuple(stacked))
+
+    def acceleration(self, speed: FloatArray, grade: FloatArray, elevation: FloatArray) -> FloatArray:
+        """Acceleration of every column; speed may carry leading axes (e.g. a grid of speeds). [m/s^2]"""
+        out = np.empty(np.broadcast_shapes(speed.shape, grade.shape))
+        for (lo, hi), model in zip(self.bounds, self.models, strict=True):
+            out[..., lo:hi] = model.acceleration(speed[..., lo:hi], grade[lo:hi], elevation[lo:hi])
+        return out
+
+
+def _shape(model: Any) -> Hashable:
+    """What must be equal for models to share a stack: family and non-numeric fields."""
+    if not is_dataclass(model):
+        return ("object", id(model))
+    parts: list[Hashable] = [type(model).__qualname__, id(type(model))]
+    for f in fields(model):
+        value = getattr(model, f.name)
+        if isinstance(value, int | float) and not isinstance(value, bool):
+            continue
+        if is_dataclass(value):
+            parts.append(_shape(value))
+        elif isinstance(value, Hashable):
+            parts.append(value)
+        else:
+            return ("object", id(model))
+    return tuple(parts)
+
+
+def _stack(models: list[Any]) -> Any:
+    first = models[0]
+    if not is_dataclass(first):
+        return first
+    values: dict[str, Any] = {}
+    for f in fields(first):
+        value = getattr(first, f.name)
+        if isinstance(value, int | float) and not isinstance(value, bool):
+            values[f.name] = np.array([getattr(m, f.name) for m in models], dtype=float)
+        elif is_dataclass(value):
+            values[f.name] = _stack([getattr(m, f.name) for m in models])
+        else:
+            values[f.name] = value
+    kind: Any = type(first)
+    return kind(**values)
+
+
+def _take(model: Any, columns: NDArray[np.intp]) -> Any:
+    if not is_dataclass(model):
+        return model
+    values: dict[str, Any] = {}
+    for f in fields(model):
+        value = getattr(model, f.name)
+        if isinstance(value, np.ndarray):
+            values[f.name] = value[columns]
+        elif is_dataclass(value):
+            values[f.name] = _take(value, columns)
+        else:
+            values[f.name] = value
+    kind: Any = type(model)
+    return kind(**values)

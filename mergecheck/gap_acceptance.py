@@ -291,8 +291,7 @@ def merge_reliability(
     if station[-1] < far:
         station = np.append(station, far)
         speed = np.append(speed, speed[-1])
-    eligible = (station >= convergence) & (speed >= minimum_merge_speed)
-    x_a = float(station[np.argmax(eligible)]) if eligible.any() else None
+    x_a = eligible_station(station, speed, convergence, minimum_merge_speed)
     tau = np.zeros_like(station)
     if x_a is None:
         probability = np.zeros_like(station)
@@ -335,6 +334,21 @@ def merge_reliability(
         stops_per_h=flow * 3600 * (1.0 - by_taper_end),
         mean_stopped_wait=wait,
     )
+
+
+def eligible_station(station: FloatArray, speed: FloatArray, convergence: float, minimum: float) -> float | None:
+    """First station past the convergence point where the speed reaches ``minimum``; None if never. [m]
+
+    Between samples the crossing is interpolated linearly in v^2 (exact for constant acceleration).
+    """
+    eligible = (station >= convergence) & (speed >= minimum)
+    if not eligible.any():
+        return None
+    i = int(np.argmax(eligible))
+    if i == 0 or speed[i - 1] >= minimum:
+        return float(station[i])
+    crossing = np.interp(minimum**2, [speed[i - 1] ** 2, speed[i] ** 2], station[i - 1 : i + 1])
+    return max(float(crossing), convergence)
 
 
 @dataclass(frozen=True, slots=True)

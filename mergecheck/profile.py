@@ -106,13 +106,7 @@ class VerticalProfile:
         clip((x - BVC_i) / L_i, 0, 1) over a vertical curve.
         """
         x = np.asarray(station, dtype=float)
-        result = np.full_like(x, self.initial_grade, dtype=float)
-        previous = self.initial_grade
-        for change in self.changes:
-            step = change.grade - previous
-            result = result + step * self._ramp(x, change)
-            previous = change.grade
-        return result
+        return grade_at(x[..., None], self.initial_grade, *self._columns())
 
     def elevation(self, station: ArrayLike) -> FloatArray:
         """Elevation relative to station 0 (integral of the grade). [m]
@@ -121,27 +115,102 @@ class VerticalProfile:
         of the vertical curve) and linear beyond it.
         """
         x = np.asarray(station, dtype=float)
-        result = self.initial_grade * x
-        previous = self.initial_grade
-        for change in self.changes:
-            step = change.grade - previous
-            result = result + step * (self._ramp_integral(x, change) - self._ramp_integral(np.zeros_like(x), change))
-            previous = change.grade
-        return result
+        return elevation_at(x[..., None], self.initial_grade, *self._columns())
 
-    @staticmethod
-    def _ramp(x: FloatArray, change: GradeChange) -> FloatArray:
-        if change.curve_length > 0:
-            start = change.station - change.curve_length / 2
-            return np.clip((x - start) / change.curve_length, 0.0, 1.0)
-        return (x >= change.station).astype(float)
+    def _columns(self) -> tuple[FloatArray, FloatArray, FloatArray]:
+        """PVI stations, grade steps and curve lengths as arrays (one column per change)."""
+        grades = [self.initial_grade] + [c.grade for c in self.changes]
+        return (
+            np.array([c.station for c in self.changes], dtype=float),
+            np.diff(np.asarray(grades, dtype=float)),
+            np.array([c.curve_length for c in self.changes], dtype=float),
+        )
 
-    @staticmethod
-    def _ramp_integral(x: FloatArray, change: GradeChange) -> FloatArray:
-        """Integral of the ramp from -infinity to x."""
-        length = change.curve_length
-        start = change.station - length / 2
-        if length > 0:
-            inside = np.clip(x - start, 0.0, length)
-            return inside**2 / (2 * length) + np.maximum(x - start - length, 0.0)
-        return np.maximum(x - change.station, 0.0)
+
+@dataclass(frozen=True, slots=True)
+class ProfileStack:
+    """Many profiles side by side, one row each, for integrating many vehicles at once.
+
+    Rows are padded with empty changes (no grade step, far away) to a common
+    number of columns. ``grade`` and ``elevation`` take one station per row
+    and use the same formulas as :class:`VerticalProfile`.
+    """
+
+    initial_grade: FloatArray
+    """(n,) [fraction]"""
+    station: FloatArray
+    """(n, c) PVI stations. [m]"""
+    step: FloatArray
+    """(n, c) grade change at each PVI. [fraction]"""
+    curve_length: FloatArray
+    """(n, c) [m]"""
+
+    @classmethod
+    def of(cls, profiles: list[VerticalProfile]) -> ProfileStack:
+        width = max((len(p.changes) for p in profiles), default=0) + 1  # at least one padding column
+        station = np.full((len(profiles), width), _FAR)
+        step = np.zeros((len(profiles), width))
+        length = np.zeros((len(profiles), width))
+        for row, profile in enumerate(profiles):
+            count = len(profile.changes)
+            station[row, :count], step[row, :count], length[row, :count] = profile._columns()
+        initial = np.array([p.initial_grade for p in profiles], dtype=float)
+        return cls(initial, station, step, length)
+
+    def take(self, rows: NDArray[np.intp]) -> ProfileStack:
+        return ProfileStack(self.initial_grade[rows], self.station[rows], self.step[rows], self.curve_length[rows])
+
+    def grade(self, station: FloatArray) -> FloatArray:
+        """Grade of each row at its own station. [fraction]"""
+        return grade_at(station[:, None], self.initial_grade, self.station, self.step, self.curve_length)
+
+    def elevation(self, station: FloatArray) -> FloatArray:
+        """Elevation of each row at its own station, relative to station 0. [m]"""
+        return elevation_at(station[:, None], self.initial_grade, self.station, self.step, self.curve_length)
+
+    @property
+    def breakpoints(self) -> FloatArray:
+        """(n, 2c) stations where each row's grade or its rate of change is not smooth (padding far away). [m]"""
+        return np.concatenate([self.station - self.curve_length / 2, self.station + self.curve_length / 2], axis=1)
+
+    @property
+    def last_change_end(self) -> FloatArray:
+        """(n,) station beyond which each row's grade is constant. [m]"""
+        ends = np.where(self.station < _FAR, self.station + self.curve_length / 2, -np.inf)
+        return np.asarray(np.max(ends, axis=1, initial=-np.inf), dtype=float)
+
+    @property
+    def final_grade(self) -> FloatArray:
+        """(n,) grade after each row's last change. [fraction]"""
+        return np.asarray(self.initial_grade + self.step.sum(axis=1), dtype=float)
+
+
+_FAR = 1e12  # m: station of the padding changes of a ProfileStack
+
+
+def _ramp(x: FloatArray, station: FloatArray, length: FloatArray) -> FloatArray:
+    """0 before the change, 1 after; linear over a vertical curve of length L centred on the PVI."""
+    over_curve = np.clip((x - station + length / 2) / np.where(length > 0, length, 1.0), 0.0, 1.0)
+    return np.where(length > 0, over_curve, (x >= station).astype(float))
+
+
+def _ramp_integral(x: FloatArray, station: FloatArray, length: FloatArray) -> FloatArray:
+    """Integral of the ramp from -infinity to x."""
+    start = station - length / 2
+    inside = np.clip(x - start, 0.0, length)
+    return np.asarray(inside**2 / (2 * np.where(length > 0, length, 1.0)) + np.maximum(x - start - length, 0.0))
+
+
+def grade_at(
+    x: FloatArray, initial: float | FloatArray, station: FloatArray, step: FloatArray, length: FloatArray
+) -> FloatArray:
+    """G(x) = G_0 + sum_i dG_i r_i(x); changes along the last axis, x broadcast against them. [fraction]"""
+    return np.asarray(np.add(initial, np.sum(step * _ramp(x, station, length), axis=-1)), dtype=np.float64)
+
+
+def elevation_at(
+    x: FloatArray, initial: float | FloatArray, station: FloatArray, step: FloatArray, length: FloatArray
+) -> FloatArray:
+    """Integral of G from 0 to x, same layout as :func:`grade_at`. [m]"""
+    rise = step * (_ramp_integral(x, station, length) - _ramp_integral(np.zeros_like(x), station, length))
+    return np.asarray(np.multiply(initial, x[..., 0]) + np.sum(rise, axis=-1), dtype=np.float64)

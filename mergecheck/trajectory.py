@@ -1,4 +1,4 @@
-"""Speed along a vertical profile: integrate a vehicle's acceleration over distance.
+"""Speed along a vertical profile: integrate vehicles' acceleration over distance, many at once.
 
 The grade is a function of station, so the equation of motion is integrated in
 distance, not time. With the kinetic energy per unit mass u = v^2/2 as the
@@ -12,48 +12,85 @@ state, the equations are regular at a standing start:
 (du/dx = v dv/dx = dv/dt: common practice in vehicle-performance work). The
 first centimetre of a standing start is taken at constant acceleration,
 v = sqrt(2 a0 dx), t = sqrt(2 dx / a0), which removes the 1/v singularity of
-dt/dx. Between grade breakpoints the right-hand side is smooth and is
-integrated with SciPy's DOP853 (Hairer, Norsett and Wanner, Solving Ordinary
-Differential Equations I, 2nd ed., 1993) with root-finding events for the
-target speed and for a stall.
+dt/dx.
+
+Every trajectory of a site, or of thousands of sites, is integrated in one
+loop: the explicit Runge-Kutta pair of Dormand and Prince (1980), 5th order
+with a 4th-order error estimate and its 4th-order continuous extension, the
+coefficients taken from :class:`scipy.integrate.RK45`. Each vehicle keeps its
+own step size, chosen by the usual error control (Hairer, Norsett and Wanner,
+Solving Ordinary Differential Equations I, 2nd ed., 1993, II.4; relative and
+absolute tolerance 1e-9), and steps never cross a grade breakpoint, where the
+right-hand side is not smooth; the grade on a step is the one of the segment
+it lies in. The target speed and a stall are located inside a step on the
+continuous extension. A vehicle's numbers depend only on its own inputs, so a
+site integrated alone or among ten thousand gives the same trajectory.
 
 A vehicle that cannot reach the target never loops: past the last grade
 change the grade is constant, and the equilibrium speed on it (the crawl
-speed, where acceleration is zero) is found by a root search. If it lies
-below the target, the target is unreachable and the integration stops once
-the vehicle has settled near that speed.
+speed, where acceleration is zero) is found by a scan and bisection. If it
+lies below the target, the target is unreachable and the integration stops
+once the vehicle has settled near that speed.
+
+References
+----------
+Dormand, J. R., and Prince, P. J. (1980). "A family of embedded Runge-Kutta
+formulae." J. Comput. Appl. Math. 6(1), 19-26.
 """
 
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
-from scipy.integrate import solve_ivp
-from scipy.optimize import brentq
+from scipy.integrate import RK45
 
-from .acceleration import AccelerationModel
-from .profile import VerticalProfile
+from .acceleration import AccelerationModel, ModelStack
+from .profile import ProfileStack, VerticalProfile
 
 FloatArray = NDArray[np.float64]
+IndexArray = NDArray[np.intp]
 
 _START_STEP = 0.01  # m: length of the constant-acceleration first step from rest
 _STALL_SPEED = 0.05  # m/s: below this a decelerating vehicle is taken as stopped
 _SCAN_SPEED_MAX = 80.0  # m/s: equilibrium speeds are searched up to this
-_CHUNK = 500.0  # m: integration chunk on the final constant grade
+_SCAN_POINTS = 1601  # 0.05 m/s apart
+_RECHECK = 500.0  # m: the crawl speed is found again after this much climbing (the air thins)
 _SETTLED = 0.02  # relative closeness to the crawl speed at which integration stops
+_TOLERANCE = 1e-9  # relative and absolute, on u [m^2/s^2] and t [s]
+_SAFETY, _MIN_FACTOR, _MAX_FACTOR = 0.9, 0.2, 10.0  # step-size control (Hairer et al. II.4)
+_TAIL_THINNING = 10  # beyond `detail_until` samples are this many output steps apart
+_A, _B, _C, _E, _P = RK45.A, RK45.B, RK45.C, RK45.E, RK45.P  # Dormand-Prince 5(4) and its dense output
 
 
 @dataclass(frozen=True, slots=True)
+class Pieces:
+    """The continuous extension of the accepted steps: on step i, for 0 <= sigma <= 1,
+    y(x_i + sigma h_i) = y_i + h_i sum_j Q_ij sigma^(j+1), with y = (u, t)."""
+
+    x: FloatArray
+    """(k,) station where each step starts. [m]"""
+    h: FloatArray
+    """(k,) step length. [m]"""
+    y: FloatArray
+    """(2, k) u = v^2/2 [m^2/s^2] and t [s] at each step's start."""
+    q: FloatArray
+    """(4, 2, k) coefficients of the continuous extension."""
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
 class Trajectory:
-    """Speed and time along a path.
+    """Speed and time along a path, exact to the integration tolerance at any station.
+
+    The path is held as the integrator's continuous extension; ``station``,
+    ``speed`` and ``time`` sample it every ``output_step`` (plus the start,
+    the end of a standing start's first centimetre, and the end).
 
     Attributes
     ----------
-    station, speed, time : ndarray
-        Samples along the path (station increasing). [m], [m/s], [s]
     initial_speed, target_speed : float
         Speeds asked for. [m/s]
     target_station, target_time : float or None
@@ -63,17 +100,27 @@ class Trajectory:
         speed (the target is then unreachable); None otherwise. [m/s]
     stalled : bool
         The vehicle cannot move on the grade (crawl speed zero).
+    start, end : float
+        First and last station of the path. [m]
+    launch : float or None
+        Constant acceleration over the first centimetre of a standing start. [m/s^2]
+    pieces : Pieces
+        The integrated steps.
+    output_step : float
+        Spacing of the samples. [m]
     """
 
-    station: FloatArray
-    speed: FloatArray
-    time: FloatArray
     initial_speed: float
     target_speed: float
     target_station: float | None
     target_time: float | None
     crawl_speed: float | None
     stalled: bool
+    start: float
+    end: float
+    launch: float | None
+    pieces: Pieces
+    output_step: float = 1.0
 
     @property
     def reaches_target(self) -> bool:
@@ -82,66 +129,120 @@ class Trajectory:
     @property
     def distance(self) -> float | None:
         """Distance from the start to where the target speed is reached. [m]"""
-        return None if self.target_station is None else self.target_station - float(self.station[0])
+        return None if self.target_station is None else self.target_station - self.start
 
     @property
     def duration(self) -> float | None:
         """Time from the start to when the target speed is reached. [s]"""
-        return None if self.target_time is None else self.target_time - float(self.time[0])
+        return self.target_time
+
+    @property
+    def station(self) -> FloatArray:
+        """Sample stations. [m]"""
+        return self.samples()[0]
+
+    @property
+    def speed(self) -> FloatArray:
+        """Speed at the sample stations. [m/s]"""
+        return self.samples()[1]
+
+    @property
+    def time(self) -> FloatArray:
+        """Time at the sample stations. [s]"""
+        return self.samples()[2]
+
+    def samples(self, spacing: float | None = None) -> tuple[FloatArray, FloatArray, FloatArray]:
+        """Stations, speeds and times: the start, every ``spacing`` (default ``output_step``), the end."""
+        step = spacing or self.output_step
+        head = [self.start] if self.launch is None else [self.start, min(self.start + _START_STEP, self.end)]
+        grid = np.arange(math.floor(head[-1] / step) + 1, math.ceil(self.end / step)) * step
+        tail = [self.end] if self.end > head[-1] else []
+        station = np.concatenate([head, grid[(grid > head[-1]) & (grid < self.end)], tail])
+        u, t = self._state_at(station)
+        return station, np.sqrt(np.maximum(2.0 * u, 0.0)), t
 
     def speed_at(self, station: ArrayLike) -> FloatArray:
-        """Speed at stations within the integrated range (interpolated in v^2). [m/s]"""
-        x = np.asarray(station, dtype=float)
-        if np.any(x < self.station[0] - 1e-9) or np.any(x > self.station[-1] + 1e-9):
-            raise ValueError("station outside the integrated range")
-        return np.asarray(np.sqrt(np.interp(x, self.station, self.speed**2)), dtype=float)
+        """Speed at stations within the integrated range. [m/s]"""
+        u, _ = self._state_at(np.asarray(station, dtype=float))
+        return np.asarray(np.sqrt(np.maximum(2.0 * u, 0.0)), dtype=float)
 
     def time_at(self, station: ArrayLike) -> FloatArray:
-        """Time at stations within the integrated range. [s]
+        """Time at stations within the integrated range. [s]"""
+        return self._state_at(np.asarray(station, dtype=float))[1]
 
-        Between samples, t = t_i + 2 (x - x_i) / (v_i + v(x)), exact for
-        constant acceleration.
-        """
-        x = np.asarray(station, dtype=float)
-        i = np.clip(np.searchsorted(self.station, x, side="right") - 1, 0, self.station.size - 1)
-        v = self.speed_at(x)
-        gap = x - self.station[i]
-        step = np.divide(2.0 * gap, self.speed[i] + v, out=np.zeros_like(gap), where=gap > 0)
-        return np.asarray(self.time[i] + step, dtype=float)
+    def _state_at(self, x: FloatArray) -> tuple[FloatArray, FloatArray]:
+        if np.any(x < self.start - 1e-9) or np.any(x > self.end + 1e-9):
+            raise ValueError("station outside the integrated range")
+        u0 = 0.5 * self.initial_speed**2
+        u, t = np.full(x.shape, u0), np.zeros(x.shape)
+        p = self.pieces
+        if p.x.size:
+            i = np.clip(np.searchsorted(p.x, x, side="right") - 1, 0, p.x.size - 1)
+            sigma = (x - p.x[i]) / p.h[i]
+            u, t = _dense(p.y[0, i], p.h[i], p.q[:, 0, i], sigma), _dense(p.y[1, i], p.h[i], p.q[:, 1, i], sigma)
+        if self.launch is not None:  # constant acceleration: u = u0 + a (x - x0), t = (v - v0) / a
+            first = x < self.start + _START_STEP
+            u_launch = u0 + self.launch * (x - self.start)
+            t_launch = (np.sqrt(2.0 * u_launch) - self.initial_speed) / self.launch
+            u, t = np.where(first, u_launch, u), np.where(first, t_launch, t)
+        return u, t
+
+
+@dataclass(frozen=True, slots=True)
+class Run:
+    """One trajectory to integrate (see :func:`accelerate` for the meaning of each field)."""
+
+    model: AccelerationModel
+    profile: VerticalProfile
+    initial_speed: float
+    target_speed: float
+    start: float = 0.0
+    through: float | None = None
+    elevation: float = 0.0
+
+
+def equilibrium_speeds(
+    models: ModelStack, grade: FloatArray, elevation: FloatArray, from_speed: FloatArray
+) -> FloatArray:
+    """Stable equilibrium speed each vehicle tends to on a constant grade; NaN above 80 m/s. [m/s]
+
+    From ``from_speed`` a vehicle accelerates (a > 0) up to the first speed
+    above it where a(v) falls through zero, or decelerates (a < 0) down to the
+    highest speed below it where a(v) falls through zero; 0 when it cannot
+    hold any speed. The crossing is bracketed on a 0.05 m/s grid and refined
+    by bisection to machine precision.
+    """
+    grid = np.linspace(0.0, _SCAN_SPEED_MAX, _SCAN_POINTS)
+    columns = grade.size
+    accel = models.acceleration(np.repeat(grid[:, None], columns, axis=1), grade, elevation)
+    falls = (accel[:-1] > 0) & (accel[1:] <= 0)  # (points - 1, columns): a(v) crosses zero going down
+    a_here = models.acceleration(from_speed, grade, elevation)
+    ahead = falls & (grid[1:, None] > from_speed)
+    behind = falls & (grid[:-1, None] < from_speed)
+    first_ahead = np.argmax(ahead, axis=0)
+    last_behind = falls.shape[0] - 1 - np.argmax(behind[::-1], axis=0)
+    rising = a_here > 0
+    j = np.where(rising, first_ahead, last_behind)
+    low = np.where(rising, np.maximum(from_speed, grid[j]), grid[j])
+    high = np.where(rising, grid[j + 1], np.minimum(from_speed, grid[j + 1]))
+    for _ in range(60):  # a(low) > 0 >= a(high) throughout
+        middle = 0.5 * (low + high)
+        positive = models.acceleration(middle, grade, elevation) > 0
+        low, high = np.where(positive, middle, low), np.where(positive, high, middle)
+    result = np.where(models.acceleration(high, grade, elevation) == 0.0, high, 0.5 * (low + high))
+    result = np.where(rising & ~ahead.any(axis=0), np.nan, result)
+    result = np.where(~rising & ~behind.any(axis=0), 0.0, result)
+    return np.asarray(np.where(a_here == 0.0, from_speed, result), dtype=float)
 
 
 def equilibrium_speed(model: AccelerationModel, grade: float, elevation: float, from_speed: float) -> float | None:
-    """Stable equilibrium speed a vehicle tends to on a constant grade. [m/s]
+    """Stable equilibrium speed one vehicle tends to on a constant grade; None above 80 m/s. [m/s]
 
-    From ``from_speed`` the vehicle accelerates (a > 0) up to the first speed
-    above it where a(v) falls through zero, or decelerates (a < 0) down to the
-    highest speed below it where a(v) falls through zero; 0 when it cannot
-    hold any speed. None when it accelerates beyond 80 m/s. The crossing is
-    bracketed on a 0.05 m/s grid and refined with Brent's method.
+    See :func:`equilibrium_speeds`.
     """
-
-    def f(v: float) -> float:
-        return float(model.acceleration(v, grade, elevation))
-
-    speeds = np.linspace(0.0, _SCAN_SPEED_MAX, 1601)
-    accel = model.acceleration(speeds, grade, elevation)
-    falls = np.flatnonzero((accel[:-1] > 0) & (accel[1:] <= 0))  # a(v) crosses zero going down
-    a_here = f(from_speed)
-    if a_here == 0.0:
-        return from_speed
-    if a_here > 0:
-        ahead = falls[speeds[falls + 1] > from_speed]
-        if ahead.size == 0:
-            return None
-        low, high = max(from_speed, float(speeds[ahead[0]])), float(speeds[ahead[0] + 1])
-    else:
-        behind = falls[speeds[falls] < from_speed]
-        if behind.size == 0:
-            return 0.0
-        low, high = float(speeds[behind[-1]]), min(from_speed, float(speeds[behind[-1] + 1]))
-    if f(high) == 0.0:
-        return high
-    return float(brentq(f, low, high, xtol=1e-10))
+    _, stack = ModelStack.of([model])
+    value = float(equilibrium_speeds(stack, np.array([grade]), np.array([elevation]), np.array([from_speed]))[0])
+    return None if math.isnan(value) else value
 
 
 def accelerate(
@@ -198,126 +299,275 @@ def accelerate(
     >>> round(run.distance, 6), round(run.duration, 6)
     (200.0, 20.0)
     """
-    if initial_speed < 0 or target_speed < 0:
+    run = Run(model, profile, initial_speed, target_speed, start, through, elevation)
+    return accelerate_many([run], output_step=output_step, max_distance=max_distance)[0]
+
+
+def accelerate_many(
+    runs: Sequence[Run], *, output_step: float = 1.0, max_distance: float = 20_000.0
+) -> list[Trajectory]:
+    """Integrate many trajectories at once (same rules as :func:`accelerate`, one result per run)."""
+    if any(r.initial_speed < 0 or r.target_speed < 0 for r in runs):
         raise ValueError("speeds must not be negative")
-    through = start if through is None else max(through, start)
-    end_limit = start + max_distance
+    if not runs:
+        return []
+    order, models = ModelStack.of([r.model for r in runs])
+    ordered = [runs[i] for i in order]
+    state = _State(ordered, models, max_distance)
+    while state.live.size:
+        state.advance()
+    trajectories = state.trajectories(ordered, output_step)
+    result: list[Trajectory] = [trajectories[0]] * len(runs)
+    for position, index in enumerate(order):
+        result[index] = trajectories[position]
+    return result
 
-    def height(x: float) -> float:
-        return elevation + float(profile.elevation(x))
 
-    def rhs(x: float, y: NDArray[np.float64]) -> list[float]:
-        v = math.sqrt(max(2.0 * y[0], 0.0))
-        a = float(model.acceleration(v, float(profile.grade(x)), height(x)))
-        return [a, 1.0 / max(v, 1e-12)]
+class _State:
+    """Many vehicles integrated together, one column each (see the module docstring)."""
 
-    u_target = 0.5 * target_speed**2
+    def __init__(self, runs: list[Run], models: ModelStack, max_distance: float) -> None:
+        n = len(runs)
+        self.models = models
+        self.profiles = ProfileStack.of([r.profile for r in runs])
+        self.breaks = self.profiles.breakpoints
+        self.last_change_end = self.profiles.last_change_end
+        self.final_grade = self.profiles.final_grade
+        self.base = np.array([r.elevation for r in runs], dtype=float)
+        self.start = np.array([r.start for r in runs], dtype=float)
+        through = np.array([r.start if r.through is None else r.through for r in runs], dtype=float)
+        self.through = np.maximum(through, self.start)
+        self.end_limit = self.start + max_distance
+        self.v0 = np.array([r.initial_speed for r in runs], dtype=float)
+        self.target = np.array([r.target_speed for r in runs], dtype=float)
+        self.x = self.start.copy()
+        self.y = np.stack([0.5 * self.v0**2, np.zeros(n)])  # u = v^2/2 and t
+        self.reached = self.v0 >= self.target
+        self.target_x = np.where(self.reached, self.start, np.nan)
+        self.target_t = np.where(self.reached, 0.0, np.nan)
+        self.crawl = np.full(n, np.nan)
+        self.crawl_checked_at = np.full(n, np.nan)
+        self.stalled = np.zeros(n, dtype=bool)
+        self.done = self.reached & (self.through <= self.start)
+        self.launch = np.full(n, np.nan)
+        self.steps = _Steps([], [], [], [], [], [])
+        self._standing_start()
+        self.h = np.zeros(n)
+        self.rejected = np.zeros(n, dtype=bool)
+        self._update_live()
+        if self.live.size:
+            self.h[self.live] = self._initial_step()
 
-    def reach(x: float, y: NDArray[np.float64]) -> float:
-        return float(y[0] - u_target)
+    def _update_live(self) -> None:
+        self.live = np.flatnonzero(~self.done)
+        self.live_models = self.models.take(self.live)
+        self.live_profiles = self.profiles.take(self.live)
 
-    reach.terminal = True  # type: ignore[attr-defined]
-    reach.direction = 1.0  # type: ignore[attr-defined]
+    def _rhs(self, x: FloatArray, y: FloatArray, edge: FloatArray) -> FloatArray:
+        """du/dx and dt/dx of the live columns, Eq. (1); the grade is read left of ``edge`` (the segment end)."""
+        v = np.sqrt(np.maximum(2.0 * y[0], 0.0))
+        grade = self.live_profiles.grade(np.minimum(x, edge))
+        height = self.base[self.live] + self.live_profiles.elevation(x)
+        return np.stack([self.live_models.acceleration(v, grade, height), 1.0 / np.maximum(v, 1e-12)])
 
-    def stall(x: float, y: NDArray[np.float64]) -> float:
-        return float(y[0] - 0.5 * _STALL_SPEED**2)
-
-    stall.terminal = True  # type: ignore[attr-defined]
-    stall.direction = -1.0  # type: ignore[attr-defined]
-
-    stations = [start]
-    speeds = [initial_speed]
-    times = [0.0]
-    x, u, t = start, 0.5 * initial_speed**2, 0.0
-    target_x: float | None = start if initial_speed >= target_speed else None
-    target_t: float | None = 0.0 if target_x is not None else None
-    crawl: float | None = None
-    stalled = False
-
-    if initial_speed < _STALL_SPEED:
-        a0 = float(model.acceleration(initial_speed, float(profile.grade(start)), height(start)))
-        if a0 <= 0:  # cannot move off: crawl speed zero on this grade
-            return _result(stations, speeds, times, initial_speed, target_speed, target_x, target_t, 0.0, True)
-        # constant acceleration over the first centimetre (removes dt/dx = 1/v at v = 0)
-        x = start + _START_STEP
-        u = 0.5 * initial_speed**2 + a0 * _START_STEP
-        t = (math.sqrt(2 * u) - initial_speed) / a0
-        stations.append(x)
-        speeds.append(math.sqrt(2 * u))
-        times.append(t)
-
-    breakpoints = profile.breakpoints
-    while True:
-        ahead = breakpoints[breakpoints > x + 1e-9]
-        segment_end = float(ahead[0]) if ahead.size else x + _CHUNK
-        segment_end = min(segment_end, end_limit)
-        if target_x is not None:
-            segment_end = min(segment_end, through)
-        solution = solve_ivp(
-            rhs,
-            (x, segment_end),
-            [u, t],
-            method="DOP853",
-            rtol=1e-8,
-            atol=[1e-8, 1e-8],
-            events=[reach, stall] if target_x is None else [stall],
-            dense_output=True,
+    def _standing_start(self) -> None:
+        """Constant acceleration over the first centimetre from rest (removes dt/dx = 1/v at v = 0)."""
+        slow = np.flatnonzero((self.v0 < _STALL_SPEED) & ~self.done)
+        if not slow.size:
+            return
+        profiles = self.profiles.take(slow)
+        at = self.start[slow]
+        a0 = self.models.take(slow).acceleration(
+            self.v0[slow], profiles.grade(at), self.base[slow] + profiles.elevation(at)
         )
-        x_end = float(solution.t[-1])
-        grid = np.arange(math.floor(x / output_step) + 1, math.ceil(x_end / output_step)) * output_step
-        grid = grid[(grid > x) & (grid < x_end)]
-        if grid.size:
-            values = solution.sol(grid)
-            stations.extend(grid.tolist())
-            speeds.extend(np.sqrt(np.maximum(2 * values[0], 0.0)).tolist())
-            times.extend(values[1].tolist())
-        u, t = float(solution.y[0, -1]), float(solution.y[1, -1])
-        x = x_end
-        stations.append(x)
-        speeds.append(math.sqrt(max(2 * u, 0.0)))
-        times.append(t)
-        events = dict(zip(["reach", "stall"] if target_x is None else ["stall"], solution.t_events, strict=True))
-        if events.get("reach", np.empty(0)).size:
-            target_x, target_t = x, t
-        if events["stall"].size:
-            stalled, crawl = True, 0.0
-            break
-        if x >= end_limit - 1e-9:
-            break
-        if target_x is not None:
-            if x >= through:
-                break
-            continue
-        if x < profile.last_change_end or x < through:
-            continue
-        v = math.sqrt(2 * u)
-        settle = equilibrium_speed(model, profile.final_grade, height(x), v)
-        if settle is not None and settle < target_speed:
-            crawl = settle
-            if abs(v - settle) <= _SETTLED * max(settle, 1.0):
-                break
-    return _result(stations, speeds, times, initial_speed, target_speed, target_x, target_t, crawl, stalled)
+        stuck = slow[a0 <= 0]  # cannot move off: crawl speed zero on this grade
+        self.done[stuck], self.stalled[stuck], self.crawl[stuck] = True, True, 0.0
+        moving, a = slow[a0 > 0], a0[a0 > 0]
+        u = 0.5 * self.v0[moving] ** 2 + a * _START_STEP
+        v = np.sqrt(2 * u)
+        t = (v - self.v0[moving]) / a
+        self.x[moving] += _START_STEP
+        self.y[0, moving], self.y[1, moving] = u, t
+        self.launch[moving] = a
+        # a target speed below the speed after the first centimetre is reached on it
+        low = ~self.reached[moving] & (u >= 0.5 * self.target[moving] ** 2)
+        hit, a_hit = moving[low], a[low]
+        self.target_x[hit] = self.start[hit] + (0.5 * self.target[hit] ** 2 - 0.5 * self.v0[hit] ** 2) / a_hit
+        self.target_t[hit] = (self.target[hit] - self.v0[hit]) / a_hit
+        self.reached[hit] = True
+
+    def _segment_edges(self, x: FloatArray) -> tuple[FloatArray, FloatArray]:
+        """Next grade breakpoint of each live column, and a point just before it."""
+        breaks = self.breaks[self.live]
+        following = np.min(np.where(breaks > x[:, None] + 1e-9, breaks, np.inf), axis=1)  # padding keeps it finite
+        return following, following - 1e-9 * np.maximum(1.0, np.abs(following))
+
+    def _initial_step(self) -> FloatArray:
+        """h0 = 0.01 ||y|| / ||f|| in the error norm (Hairer et al. II.4, first estimate), within 1e-6 to 10 m."""
+        x, y = self.x[self.live], self.y[:, self.live]
+        _, edge = self._segment_edges(x)
+        f = self._rhs(x, y, edge)
+        scale = _TOLERANCE + _TOLERANCE * np.abs(y)
+        d0 = np.sqrt(np.mean((y / scale) ** 2, axis=0))
+        d1 = np.sqrt(np.mean((f / scale) ** 2, axis=0))
+        h0 = np.where((d0 < 1e-5) | (d1 < 1e-5), 1e-6, 0.01 * d0 / np.maximum(d1, 1e-300))
+        return np.asarray(np.clip(h0, 1e-6, 10.0), dtype=float)
+
+    def advance(self) -> None:
+        """One Dormand-Prince step attempt for every live column; accept, locate events, stop the finished."""
+        live = self.live
+        x, y = self.x[live], self.y[:, live]
+        following, edge = self._segment_edges(x)
+        limit = np.minimum(following, self.end_limit[live])
+        limit = np.where(self.reached[live], np.minimum(limit, self.through[live]), limit)
+        h = np.minimum(self.h[live], limit - x)
+        k = np.empty((7, *y.shape))
+        k[0] = self._rhs(x, y, edge)
+        for s in range(1, 6):
+            k[s] = self._rhs(x + _C[s] * h, y + h * np.tensordot(_A[s, :s], k[:s], axes=1), edge)
+        y_new = y + h * np.tensordot(_B, k[:6], axes=1)
+        x_new = np.where(h >= limit - x, limit, x + h)  # land exactly on breakpoints and stops
+        k[6] = self._rhs(x_new, y_new, edge)
+        scale = _TOLERANCE + _TOLERANCE * np.maximum(np.abs(y), np.abs(y_new))
+        norm = np.sqrt(np.mean((h * np.tensordot(_E, k, axes=1) / scale) ** 2, axis=0))
+        accept = norm < 1.0
+        factor = np.where(norm == 0.0, _MAX_FACTOR, _SAFETY * np.maximum(norm, 1e-300) ** -0.2)
+        grow = np.where(self.rejected[live], np.minimum(factor, 1.0), np.minimum(factor, _MAX_FACTOR))
+        self.h[live] = np.where(accept, h * grow, h * np.maximum(factor, _MIN_FACTOR))
+        self.rejected[live] = ~accept
+        if not accept.any():
+            return
+        taken = np.flatnonzero(accept)
+        cols = live[taken]
+        x0, h, end = x[taken], h[taken], x_new[taken]
+        y0, y1 = y[:, taken], y_new[:, taken]
+        q = np.tensordot(_P.T, k[:, :, taken], axes=1)  # (4, 2, m): continuous extension
+        # the target speed, first reached inside this step
+        hit = np.flatnonzero(~self.reached[cols] & (y1[0] >= 0.5 * self.target[cols] ** 2))
+        if hit.size:
+            sigma = _crossing(y0[0, hit], h[hit], q[:, 0, hit], 0.5 * self.target[cols[hit]] ** 2)
+            self.target_x[cols[hit]] = x0[hit] + sigma * h[hit]
+            self.target_t[cols[hit]] = _dense(y0[1, hit], h[hit], q[:, 1, hit], sigma)
+            self.reached[cols[hit]] = True
+        # a stall: the vehicle slows to a stop; its path ends there
+        stall = np.flatnonzero(y1[0] < 0.5 * _STALL_SPEED**2)
+        if stall.size:
+            sigma = _crossing(y0[0, stall], h[stall], q[:, 0, stall], 0.5 * _STALL_SPEED**2)
+            end[stall] = x0[stall] + sigma * h[stall]
+            for row in (0, 1):
+                y1[row, stall] = _dense(y0[row, stall], h[stall], q[:, row, stall], sigma)
+            self.stalled[cols[stall]], self.crawl[cols[stall]] = True, 0.0
+        self.steps.append(cols, x0, h, end, y0, q)
+        self.x[cols], self.y[:, cols] = end, y1
+        finished = self.stalled[cols] | (end >= self.end_limit[cols] - 1e-9)
+        finished |= self.reached[cols] & (end >= self.through[cols] - 1e-9)
+        finished |= self._settled(cols, end, np.sqrt(2.0 * np.maximum(y1[0], 0.0)), finished)
+        if finished.any():
+            self.done[cols[finished]] = True
+            self._update_live()
+
+    def _settled(
+        self, cols: IndexArray, x: FloatArray, v: FloatArray, finished: NDArray[np.bool_]
+    ) -> NDArray[np.bool_]:
+        """Past the last grade change and ``through``, short of the target: settled near the crawl speed?"""
+        check = ~finished & ~self.reached[cols] & (x >= self.last_change_end[cols]) & (x >= self.through[cols])
+        again = check & (np.isnan(self.crawl_checked_at[cols]) | (x - self.crawl_checked_at[cols] >= _RECHECK))
+        if again.any():
+            c = cols[again]
+            height = self.base[c] + self.profiles.take(c).elevation(x[again])
+            settle = equilibrium_speeds(self.models.take(c), self.final_grade[c], height, v[again])
+            self.crawl[c] = np.where(settle < self.target[c], settle, np.nan)
+            self.crawl_checked_at[c] = x[again]
+        crawl = self.crawl[cols]
+        with np.errstate(invalid="ignore"):
+            return np.asarray(check & (np.abs(v - crawl) <= _SETTLED * np.maximum(crawl, 1.0)), dtype=bool)
+
+    def trajectories(self, runs: list[Run], output_step: float) -> list[Trajectory]:
+        """One trajectory per column, holding its own steps."""
+        steps = self.steps.joined()
+        bounds = np.searchsorted(steps.column, np.arange(len(runs) + 1))
+        result = []
+        for i, run in enumerate(runs):
+            piece = slice(bounds[i], bounds[i + 1])
+            reached, crawl = bool(self.reached[i]), float(self.crawl[i])
+            result.append(
+                Trajectory(
+                    initial_speed=run.initial_speed,
+                    target_speed=run.target_speed,
+                    target_station=float(self.target_x[i]) if reached else None,
+                    target_time=float(self.target_t[i]) if reached else None,
+                    crawl_speed=None if math.isnan(crawl) else crawl,
+                    stalled=bool(self.stalled[i]),
+                    start=run.start,
+                    end=float(self.x[i]),
+                    launch=None if math.isnan(self.launch[i]) else float(self.launch[i]),
+                    pieces=Pieces(steps.x[piece], steps.h[piece], steps.y[:, piece], steps.q[:, :, piece]),
+                    output_step=output_step,
+                )
+            )
+        return result
 
 
-def _result(
-    stations: list[float],
-    speeds: list[float],
-    times: list[float],
-    initial_speed: float,
-    target_speed: float,
-    target_x: float | None,
-    target_t: float | None,
-    crawl: float | None,
-    stalled: bool,
-) -> Trajectory:
-    return Trajectory(
-        station=np.asarray(stations, dtype=float),
-        speed=np.asarray(speeds, dtype=float),
-        time=np.asarray(times, dtype=float),
-        initial_speed=initial_speed,
-        target_speed=target_speed,
-        target_station=target_x,
-        target_time=target_t,
-        crawl_speed=crawl,
-        stalled=stalled,
-    )
+@dataclass(slots=True)
+class _Steps:
+    """Accepted steps of every column, kept for sampling on the continuous extension."""
+
+    column: list[IndexArray]
+    x: list[FloatArray]
+    h: list[FloatArray]
+    end: list[FloatArray]
+    y: list[FloatArray]
+    q: list[FloatArray]
+
+    def append(
+        self, column: IndexArray, x: FloatArray, h: FloatArray, end: FloatArray, y: FloatArray, q: FloatArray
+    ) -> None:
+        self.column.append(column)
+        self.x.append(x)
+        self.h.append(h)
+        self.end.append(end)
+        self.y.append(y)
+        self.q.append(q)
+
+    def joined(self) -> _JoinedSteps:
+        """All steps, grouped by column in station order."""
+        if not self.column:
+            return _JoinedSteps(
+                np.empty(0, np.intp), np.empty(0), np.ones(0), np.empty(0), np.empty((2, 0)), np.empty((4, 2, 0))
+            )
+        column, x = np.concatenate(self.column), np.concatenate(self.x)
+        order = np.lexsort((x, column))
+        return _JoinedSteps(
+            column[order],
+            x[order],
+            np.concatenate(self.h)[order],
+            np.concatenate(self.end)[order],
+            np.concatenate(self.y, axis=1)[:, order],
+            np.concatenate(self.q, axis=2)[:, :, order],
+        )
+
+
+@dataclass(frozen=True, slots=True)
+class _JoinedSteps:
+    column: IndexArray
+    x: FloatArray
+    h: FloatArray
+    end: FloatArray
+    y: FloatArray
+    q: FloatArray
+
+
+def _dense(y0: FloatArray, h: FloatArray, q: FloatArray, sigma: FloatArray) -> FloatArray:
+    """Continuous extension: y(x0 + sigma h) = y0 + h sum_j Q_j sigma^(j+1) (Dormand and Prince 1980)."""
+    return np.asarray(y0 + h * sigma * (q[0] + sigma * (q[1] + sigma * (q[2] + sigma * q[3]))), dtype=float)
+
+
+def _crossing(y0: FloatArray, h: FloatArray, q: FloatArray, level: float | FloatArray) -> FloatArray:
+    """Fraction sigma of the step where the continuous extension of u crosses ``level`` (bisection)."""
+    low, high = np.zeros_like(y0), np.ones_like(y0)
+    below_at_start = y0 < level
+    for _ in range(60):
+        middle = 0.5 * (low + high)
+        same = (_dense(y0, h, q, middle) < level) == below_at_start
+        low, high = np.where(same, middle, low), np.where(same, high, middle)
+    return high
