@@ -22,7 +22,7 @@ that can; among those, the one with the lowest speed at the end of the lane).
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Literal
 
 import numpy as np
@@ -71,7 +71,8 @@ class VehicleAssessment:
     """[m/s]"""
     merge_speed_differential: float
     """[m/s]"""
-    trajectory: Trajectory
+    trajectory: Trajectory | None
+    """Speed along the path; None once dropped (batch results keep the figures only)."""
     speed_at_convergence: float
     """[m/s]"""
     speed_at_taper_start: float
@@ -114,18 +115,30 @@ class SiteAssessment:
     verdict: SiteVerdict
     initial_speed: float
     """Speed leaving the controlling curve (0 from a stop). [m/s]"""
+    initial_speed_basis: str
+    """Where the initial speed comes from."""
     average_grade: float
     """Average grade from the convergence point to the start of the taper. [fraction]"""
     policy: PolicyValue | None
     merge_area: MergeOperations | None
     """Capacity-manual merge-area check; None without a mainline flow."""
-    assumptions: tuple[Assumption, ...]
     cautions: tuple[str, ...]
 
     @property
     def summary(self) -> str:
         """The one sentence that matters, in SI units."""
         return summary_sentence(self, "si")
+
+    @property
+    def assumptions(self) -> tuple[Assumption, ...]:
+        """Every assumption behind the result, with its value and source."""
+        return _assumptions(self.site, self.vehicles, self.initial_speed, self.initial_speed_basis, self.policy)
+
+    def figures_only(self) -> SiteAssessment:
+        """The same assessment without the curves along the path (what a batch keeps of each site)."""
+        slim = tuple(replace(v, trajectory=None, merge=replace(v.merge, curve=None)) for v in self.vehicles)
+        governing = next(i for i, v in enumerate(self.vehicles) if v is self.governing)
+        return replace(self, vehicles=slim, governing=slim[governing])
 
 
 def adjacent_headways(site: Site) -> HeadwayModel | None:
@@ -163,10 +176,14 @@ def assess_vehicle(
     entry: SiteVehicle,
     initial_speed: float,
     trajectory: Trajectory,
+    stations: FloatArray,
     monte_carlo: int = 0,
     seed: int = 0,
 ) -> VehicleAssessment:
-    """Read one design vehicle's integrated trajectory against the lane and the adjacent stream."""
+    """Read one design vehicle's integrated trajectory against the lane and the adjacent stream.
+
+    ``stations`` are where the merge probability is evaluated (:func:`merge_stations`).
+    """
     at_convergence, at_taper_start, at_taper_end = (
         float(v) for v in trajectory.speed_at([site.convergence, site.taper_start, site.taper_end])
     )
@@ -174,7 +191,6 @@ def assess_vehicle(
     available = site.available_length
     required = None if merge_station is None else max(0.0, merge_station - site.convergence)
     differential = site.operating_speed - at_taper_start
-    stations = merge_stations(site)
     merge = merge_reliability(
         stations,
         trajectory.speed_at(np.minimum(stations, trajectory.end)),  # held at its last speed beyond the path
@@ -272,7 +288,7 @@ def assess_many(sites: list[Site], *, monte_carlo: int = 0, seed: int = 20261202
     A site's result does not depend on the other sites: each vehicle's
     integration is independent of its neighbours (:mod:`mergecheck.trajectory`).
     """
-    tables = [None if site.policy_file == "none" else load_policy(site.policy_file) for site in sites]
+    tables = _policy_tables(sites)
     initial = [_initial_speed(site, table) for site, table in zip(sites, tables, strict=True)]
     runs = [
         trajectory_run(site, entry, speed)
@@ -286,6 +302,20 @@ def assess_many(sites: list[Site], *, monte_carlo: int = 0, seed: int = 20261202
     ]
 
 
+def _policy_tables(sites: list[Site]) -> list[PolicyTable | None]:
+    """Each site's policy table; each file read once."""
+    loaded: dict[str | None, PolicyTable] = {}
+    tables: list[PolicyTable | None] = []
+    for site in sites:
+        if site.policy_file == "none":
+            tables.append(None)
+            continue
+        if site.policy_file not in loaded:
+            loaded[site.policy_file] = load_policy(site.policy_file)
+        tables.append(loaded[site.policy_file])
+    return tables
+
+
 def _site_assessment(
     site: Site,
     policy_table: PolicyTable | None,
@@ -295,8 +325,9 @@ def _site_assessment(
     monte_carlo: int,
     seed: int,
 ) -> SiteAssessment:
+    stations = merge_stations(site)
     results = tuple(
-        assess_vehicle(site, entry, initial, trajectory, monte_carlo, seed + i)
+        assess_vehicle(site, entry, initial, trajectory, stations, monte_carlo, seed + i)
         for i, (entry, trajectory) in enumerate(zip(site.vehicles, trajectories, strict=True))
     )
     governing = governing_vehicle(results)
@@ -312,10 +343,10 @@ def _site_assessment(
         governing=governing,
         verdict=verdict,
         initial_speed=initial,
+        initial_speed_basis=initial_basis,
         average_grade=average_grade,
         policy=policy,
         merge_area=merge_operations(site, {r.vehicle.id: r.speed_at_taper_start for r in results}),
-        assumptions=_assumptions(site, results, initial, initial_basis, policy),
         cautions=CAUTIONS,
     )
 

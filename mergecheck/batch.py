@@ -1,10 +1,12 @@
 """Many sites at once: read a folder, a YAML list or a CSV of sites, assess each, rank worst first.
 
-Every site goes through exactly the single-site path (:func:`mergecheck.site.site_from_input`
-and :func:`mergecheck.assessment.assess`), so a batch row equals ``mergecheck check`` on
-that site. Sites are spread over worker processes when there are enough of them to pay
-for starting the workers. A site that cannot be read is reported with its reason and does
-not stop the others.
+Sites are read as ``mergecheck check`` reads them (:func:`mergecheck.site.site_from_input`)
+and assessed in runs of up to CHUNK by :func:`mergecheck.assessment.assess_many`, which
+integrates every design vehicle of every site in one pass; a vehicle's integration does
+not depend on its neighbours, so a batch row equals ``mergecheck check`` on that site.
+Runs are spread over worker processes when there are enough sites to pay for starting
+them. Each result keeps the site's figures, not its curves along the path. A site that
+cannot be read is reported with its reason and does not stop the others.
 
 CSV input: one site per row. Column names are the site file's fields joined by
 underscores, with the unit as a suffix or in each cell:
@@ -38,19 +40,23 @@ import csv
 import os
 from collections.abc import Callable, Iterator
 from concurrent.futures import ProcessPoolExecutor
+from contextlib import nullcontext
 from dataclasses import dataclass
 from functools import partial
 from pathlib import Path
 from typing import Any
 
-from .assessment import SiteAssessment, assess
+from .assessment import SiteAssessment, assess, assess_many
 from .errors import InputError
 from .inputs import read_yaml, validated
-from .site import SiteInput, site_from_input
+from .policy import load_policy
+from .site import Site, SiteInput, site_from_input
 
 UNIT_SUFFIXES = {"kmh": "km/h", "mph": "mph", "m": "m", "ft": "ft", "veh_h": "veh/h", "pct": "%", "s": "s"}
-PARALLEL_FROM = 8
-"""Use worker processes from this many sites on."""
+PARALLEL_FROM = 200
+"""Use worker processes from this many sites on (below it, starting them costs more than it saves)."""
+CHUNK = 500
+"""Sites integrated together in one pass, at most."""
 
 
 @dataclass(frozen=True, slots=True)
@@ -184,7 +190,7 @@ def csv_row_to_site(row: dict[str, str | None], label: str) -> dict[str, Any]:
 
 
 def assess_entry(entry: SiteEntry) -> BatchResult:
-    """The single-site path for one entry; errors become the row's reason."""
+    """The single-site path for one entry (full assessment, curves kept); errors become the row's reason."""
     if entry.data is None:
         return BatchResult(label=entry.label, assessment=None, error=entry.error)
     try:
@@ -193,23 +199,61 @@ def assess_entry(entry: SiteEntry) -> BatchResult:
         return BatchResult(label=entry.label, assessment=None, error=str(error))
 
 
+def assess_chunk(entries: list[SiteEntry]) -> list[BatchResult]:
+    """Assess a run of entries together (:func:`mergecheck.assessment.assess_many`), keeping the figures only.
+
+    Each site's figures equal the single-site path's: the vehicles of all
+    sites are integrated side by side, each independently of the others.
+    """
+    results: list[BatchResult | None] = [None] * len(entries)
+    readable: list[tuple[int, Site]] = []
+    policies: dict[str | None, str | None] = {}  # policy file -> why it cannot be read (None: readable)
+    for i, entry in enumerate(entries):
+        if entry.data is None:
+            results[i] = BatchResult(label=entry.label, assessment=None, error=entry.error)
+            continue
+        try:
+            site = site_from_input(entry.data, entry.label)
+            if site.policy_file != "none":
+                if site.policy_file not in policies:
+                    policies[site.policy_file] = _policy_problem(site.policy_file)
+                if policies[site.policy_file] is not None:
+                    raise InputError(entry.label, "criteria.policy_table", str(policies[site.policy_file]))
+            readable.append((i, site))
+        except InputError as error:
+            results[i] = BatchResult(label=entry.label, assessment=None, error=str(error))
+    assessments = assess_many([site for _, site in readable])
+    for (i, _), assessment in zip(readable, assessments, strict=True):
+        results[i] = BatchResult(label=entries[i].label, assessment=assessment.figures_only(), error=None)
+    return [r for r in results if r is not None]
+
+
+def _policy_problem(path: str | None) -> str | None:
+    try:
+        load_policy(path)
+    except InputError as error:
+        return str(error)
+    return None
+
+
 def assess_all(
-    entries: list[SiteEntry], *, workers: int | None = None, tick: Callable[[], None] | None = None
+    entries: list[SiteEntry], *, workers: int | None = None, tick: Callable[[int], None] | None = None
 ) -> list[BatchResult]:
-    """Assess every entry, in input order, on up to ``workers`` processes (default: all cores)."""
+    """Assess every entry, in input order, in chunks of CHUNK sites on up to ``workers`` processes (default: all cores).
+
+    ``tick`` is called with the number of sites after each chunk (for a progress bar).
+    """
     workers = workers or os.cpu_count() or 1
+    parallel = workers > 1 and len(entries) >= PARALLEL_FROM
+    size = min(CHUNK, -(-len(entries) // (4 * workers))) if parallel else CHUNK  # four runs a worker
+    chunks = [entries[i : i + size] for i in range(0, len(entries), size)]
     results: list[BatchResult] = []
-    if workers <= 1 or len(entries) < PARALLEL_FROM:
-        for entry in entries:
-            results.append(assess_entry(entry))
+    with ProcessPoolExecutor(max_workers=workers) if parallel else nullcontext() as pool:
+        done: Iterator[list[BatchResult]] = pool.map(assess_chunk, chunks) if pool else map(assess_chunk, chunks)
+        for chunk in done:
+            results.extend(chunk)
             if tick:
-                tick()
-        return results
-    with ProcessPoolExecutor(max_workers=workers) as pool:
-        for result in pool.map(assess_entry, entries, chunksize=max(1, len(entries) // (8 * workers))):
-            results.append(result)
-            if tick:
-                tick()
+                tick(len(chunk))
     return results
 
 

@@ -365,7 +365,7 @@ def _batch(args: argparse.Namespace, out: Console, err: Console) -> int:
     if err.is_terminal:  # a progress bar on a terminal only; nothing extra when piped
         with Progress(*Progress.get_default_columns(), MofNCompleteColumn(), console=err, transient=True) as progress:
             task = progress.add_task("Assessing sites", total=len(entries))
-            results = assess_all(entries, workers=args.workers, tick=lambda: progress.advance(task))
+            results = assess_all(entries, workers=args.workers, tick=lambda count: progress.advance(task, count))
     else:
         results = assess_all(entries, workers=args.workers)
     results = ranked(results)

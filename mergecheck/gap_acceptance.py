@@ -53,12 +53,16 @@ from dataclasses import dataclass
 import numpy as np
 import yaml
 from numpy.typing import NDArray
-from scipy.signal import lfilter
+from scipy.fft import irfft, next_fast_len, rfft
 
 from .headways import HeadwayModel, mean_wait
 
 FloatArray = NDArray[np.float64]
-_NODES = 24  # Gauss-Hermite nodes over the log-normal critical gap
+_NODES = 10  # Gauss-Hermite nodes over the log-normal critical gap (within 2e-5 of 24 nodes)
+FIRST_REACH = 20.0
+"""Stream time solved first; most drivers who merge at all have merged by then. [s]"""
+REACH_STEP = 5.0
+"""Stream time is solved in whole steps of this. [s]"""
 
 
 @dataclass(frozen=True, slots=True)
@@ -84,12 +88,22 @@ class CriticalGap:
         mu, sigma = self.log_parameters
         if sigma == 0:
             return np.array([self.mean]), np.array([1.0])
-        x, w = np.polynomial.hermite_e.hermegauss(count)
-        return np.exp(mu + sigma * x), w / w.sum()
+        x, w = _hermite_nodes(count)
+        return np.exp(mu + sigma * x), w
 
     def sample(self, rng: np.random.Generator, size: int) -> FloatArray:
         mu, sigma = self.log_parameters
         return rng.lognormal(mu, sigma, size)
+
+
+@functools.cache
+def _hermite_nodes(count: int) -> tuple[FloatArray, FloatArray]:
+    """Gauss-Hermite (probabilists') nodes and weights normalised to sum 1 (numpy.polynomial.hermite_e)."""
+    x, w = np.polynomial.hermite_e.hermegauss(count)
+    x.flags.writeable = False
+    w = w / w.sum()
+    w.flags.writeable = False
+    return x, w
 
 
 @dataclass(frozen=True, slots=True)
@@ -150,10 +164,114 @@ def stream_time(
     return tau
 
 
+class Renewal:
+    """Eqs. (2)-(3) on a grid in tau, solved for every critical-gap node at once.
+
+    Cell j of the grid holds headways in [(j - 1/2) dt, (j + 1/2) dt), placed
+    at j dt. For a node t_c, Eq. (2) becomes the discrete renewal equation
+
+    .. math:: U_i = d_i + \\sum_{j \\ge 0} r_j U_{i-j}, \\qquad d_i = \\sum_{j > i} r_j
+
+    with r_j the mass of gaps shorter than t_c in cell j (a survival
+    difference, exact). For Eq. (3) the residual r of the length-biased first
+    gap, density (S(r) - S(t_c)) / mu for r < t_c, is integrated exactly over
+    cell [i dt, (i + 1) dt) and counted as passed at the end of the cell
+    (w_{i+1}): exact at tau = 0, at most one cell late after (conservative),
+    so that P_not,i = (w * U)_i + sum_{m > i} w_m.
+
+    Both convolutions are solved by the discrete Fourier transform,
+    U^ = d^ / (1 - r^), P^ = w^ U^, mixed over the nodes before the one
+    inverse transform. Circular wrap-around is suppressed by an exponential
+    window: every sequence is multiplied by rho^i with rho^N = 1e-13 (N the
+    transform length, at least twice the cells solved), which the recursion
+    tolerates unchanged, and divided out after (the damped inversion of
+    generating functions: Abate and Whitt 1992, "Numerical inversion of
+    probability generating functions", Operations Research Letters 12(4),
+    245-251, from memory).
+
+    Parameters
+    ----------
+    headways
+        Headway model of the adjacent lane.
+    critical_gap
+        Distribution of t_c across drivers.
+    reach
+        Largest stream time to solve for. [s]
+    step
+        Grid step in tau; default min(0.05 s, mean headway / 40). [s]
+    """
+
+    def __init__(
+        self, headways: HeadwayModel, critical_gap: CriticalGap, reach: float, step: float | None = None
+    ) -> None:
+        gaps, weights = critical_gap.nodes()
+        mu = headways.mean()
+        dt = self.step = step or min(0.05, mu / 40.0)
+        cells = math.ceil(max(reach, dt) / dt) + 1
+        width = math.ceil(float(gaps.max()) / dt + 0.5) + 1  # cells reaching the largest t_c, and one more
+        lower = np.maximum((np.arange(width) - 0.5) * dt, 0.0)
+        upper = np.minimum((np.arange(width) + 0.5) * dt, gaps[:, None])  # (K, J): cell cut at t_c
+        rejected = np.where(lower < gaps[:, None], headways.survival(lower) - headways.survival(upper), 0.0)
+        rejected = np.maximum(rejected, 0.0)
+        start = np.arange(width) * dt
+        end = np.maximum(np.minimum(start + dt, gaps[:, None]), start)
+        area = headways.survival_integral(end) - headways.survival_integral(start)
+        w = np.clip(area - headways.survival(gaps)[:, None] * (end - start), 0.0, None) / mu
+        size = next_fast_len(2 * max(cells, width + 1), real=True)
+        window = _window(size)
+        sequences = np.zeros((3, gaps.size, size))
+        sequences[0, :, :width] = rejected * window[:width]
+        sequences[1, :, : width - 1] = np.cumsum(rejected[:, ::-1], axis=1)[:, ::-1][:, 1:] * window[: width - 1]
+        sequences[2, :, 1 : width + 1] = w * window[1 : width + 1]  # placed at index i + 1
+        r, d, first = rfft(sequences, axis=-1)
+        mixed = irfft(np.einsum("k,k...->...", weights, first * d / (1.0 - r)), n=size)[:cells] / window[:cells]
+        passing = np.cumsum(w[:, ::-1], axis=1)[:, ::-1]  # residual still passing at cell i: sum of w beyond i
+        reach_first = min(cells, width)
+        mixed[:reach_first] += np.einsum("k,k...->...", weights, passing)[:reach_first]
+        self.values: FloatArray = np.clip(mixed, 0.0, 1.0)
+        """Mixed P_not at each cell (read-only: solutions are shared)."""
+        self.values.flags.writeable = False
+
+    @property
+    def reach(self) -> float:
+        """Largest stream time solved. [s]"""
+        return float((self.values.size - 1) * self.step)
+
+    def not_merged(self, tau: FloatArray) -> FloatArray:
+        """P_not at stream times within the solved range, mixed over drivers (linear between cells). [-]"""
+        return np.asarray(np.interp(tau, np.arange(self.values.size) * self.step, self.values), dtype=float)
+
+
+@functools.lru_cache(maxsize=64)
+def _window(size: int) -> FloatArray:
+    """rho^i with rho^size = 1e-13 (Renewal)."""
+    window = 10.0 ** (-13.0 * np.arange(size) / size)
+    window.flags.writeable = False
+    return window
+
+
+def solved_renewal(headways: HeadwayModel, critical_gap: CriticalGap, reach: float) -> Renewal:
+    """:class:`Renewal` solved at least to ``reach``, rounded up to whole REACH_STEPs and kept for reuse
+    (the truck classes of a site share a stream and a critical gap; a sweep repeats them)."""
+    return _renewal(headways, critical_gap, REACH_STEP * math.ceil(reach / REACH_STEP))
+
+
+@functools.lru_cache(maxsize=64)
+def _renewal(headways: HeadwayModel, critical_gap: CriticalGap, reach: float) -> Renewal:
+    return Renewal(headways, critical_gap, reach)
+
+
+@functools.lru_cache(maxsize=64)
+def stopped_wait(headways: HeadwayModel, critical_gap: CriticalGap) -> float:
+    """Mean wait of a stopped driver for a gap, mixed over drivers (:func:`mergecheck.headways.mean_wait`). [s]"""
+    gaps, weights = critical_gap.nodes()
+    return float(np.einsum("k,k->", weights, mean_wait(headways, gaps)))
+
+
 def not_merged(
     headways: HeadwayModel, critical_gap: CriticalGap, tau: FloatArray, step: float | None = None
 ) -> FloatArray:
-    """Probability of not having merged after stream time tau, Eqs. (2)-(3). [-]
+    """Probability of not having merged after stream time tau, Eqs. (2)-(3) (see :class:`Renewal`). [-]
 
     Parameters
     ----------
@@ -167,46 +285,7 @@ def not_merged(
         Grid step in tau; default min(0.05 s, mean headway / 40). [s]
     """
     tau = np.asarray(tau, dtype=float)
-    gaps, weights = critical_gap.nodes()
-    mu = headways.mean()
-    dt = step or min(0.05, mu / 40.0)
-    n = math.ceil(max(float(tau.max(initial=0.0)), dt) / dt) + 1
-    j_max = math.ceil(float(gaps.max()) / dt) + 1
-    # cell j holds headways in [(j - 1/2) dt, (j + 1/2) dt), placed at j dt
-    lower = np.maximum((np.arange(j_max + 1) - 0.5) * dt, 0.0)
-    upper = (np.arange(j_max + 1) + 0.5) * dt
-    clipped = np.minimum(upper[None, :], gaps[:, None])  # (K, J): cell cut at t_c
-    inside = lower[None, :] < gaps[:, None]
-    s_lower = headways.survival(lower)[None, :]
-    s_gap = headways.survival(gaps)[:, None]
-    # mass of gaps shorter than t_c in each cell (exact: a survival difference)
-    rejected = np.where(inside, s_lower - headways.survival(clipped), 0.0)
-    tail = np.cumsum(rejected[:, ::-1], axis=1)[:, ::-1]  # sum over cells >= index
-    # Eq. (2) is a linear recursion in i, U_i (1 - r_0) = sum_{j > i} r_j + sum_{j=1..i} r_j U_{i-j}:
-    # an all-pole filter driven by the tail masses, run by scipy.signal.lfilter for each node.
-    drive = np.zeros((gaps.size, n))
-    m_tail = min(n, j_max)
-    drive[:, :m_tail] = tail[:, 1 : m_tail + 1]
-    u = np.empty((gaps.size, n))
-    for k in range(gaps.size):
-        u[k] = lfilter([1.0], np.concatenate([[1.0 - rejected[k, 0]], -rejected[k, 1:]]), drive[k])
-    # Eq. (3): residual r of the length-biased first gap, density (S(r) - S(t_c)) / mu for r < t_c.
-    # Cell i covers r in [i dt, (i + 1) dt), integrated exactly and counted as passed at the
-    # end of the cell, (i + 1) dt: exact at tau = 0, at most one cell late after.
-    start = np.arange(j_max + 1) * dt
-    end = np.maximum(np.minimum(start[None, :] + dt, gaps[:, None]), start[None, :])
-    area = headways.survival_integral(end) - headways.survival_integral(start)[None, :]
-    w = np.clip(area - s_gap * (end - start[None, :]), 0.0, None) / mu
-    w = np.concatenate([np.zeros((gaps.size, 1)), w], axis=1)  # placed at index i + 1
-    w_tail = np.cumsum(w[:, ::-1], axis=1)[:, ::-1]
-    p_not = np.empty((gaps.size, n))
-    beyond_first = np.zeros((gaps.size, n))  # residual still passing at tau: sum of w placed beyond i
-    m = min(n, j_max + 1)
-    beyond_first[:, :m] = w_tail[:, 1 : m + 1]
-    for k in range(gaps.size):
-        p_not[k] = np.convolve(w[k], u[k])[:n] + beyond_first[k]
-    mixed = weights @ p_not
-    return np.asarray(np.interp(tau, np.arange(n) * dt, mixed), dtype=float)
+    return Renewal(headways, critical_gap, float(tau.max(initial=0.0)), step).not_merged(tau)
 
 
 def simulate_merges(
@@ -235,9 +314,9 @@ def simulate_merges(
     return np.where(merged_at <= tau_limit, merged_at, np.inf)
 
 
-@dataclass(frozen=True, slots=True, kw_only=True)
-class MergeReliability:
-    """How likely one design vehicle is to complete its merge, and what happens to those who do not."""
+@dataclass(frozen=True, slots=True)
+class MergeCurve:
+    """The probability of having merged along the path."""
 
     station: FloatArray
     """Stations along the path. [m]"""
@@ -245,6 +324,17 @@ class MergeReliability:
     """Probability of having merged by each station. [-]"""
     stream_time: FloatArray
     """tau(x) of Eq. (1) at each station (0 before the eligible station). [s]"""
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class MergeReliability:
+    """How likely one design vehicle is to complete its merge, and what happens to those who do not."""
+
+    curve: MergeCurve | None
+    """The probability along the path; None once dropped (batch results keep the figures only)."""
+    stream_time_at_lane_end: float
+    stream_time_at_taper_end: float
+    """tau of Eq. (1) at the end of the lane and of the taper. [s]"""
     eligible_station: float | None
     """Where merging may begin; None if the vehicle never gets within the minimum merge speed. [m]"""
     by_lane_end: float
@@ -284,8 +374,11 @@ def merge_reliability(
     The trajectory is extended beyond its last sample at its last speed (the
     vehicle has then settled at its crawl speed or holds its merge speed), up
     to ``search_length`` past the convergence point, to find the lane length
-    that gives the target reliability. ``headways`` None means an empty
-    adjacent lane: every vehicle merges where it becomes eligible.
+    that gives the target reliability. The returned curve runs as far as the
+    probability was solved: past the end of the taper and FIRST_REACH of
+    stream time, and on to the end of the search when the target is not met
+    by then. ``headways`` None means an empty adjacent lane: every vehicle
+    merges where it becomes eligible.
     """
     far = convergence + search_length
     if station[-1] < far:
@@ -300,7 +393,14 @@ def merge_reliability(
         if headways is None:
             merged = np.ones_like(station)
         else:
-            merged = 1.0 - not_merged(headways, critical_gap, tau)
+            # solve past the taper end (and at least FIRST_REACH); on to the search's end only if still short
+            reach = min(float(tau[-1]), max(float(np.interp(taper_end, station, tau)), FIRST_REACH))
+            renewal = solved_renewal(headways, critical_gap, reach)
+            if renewal.values[-1] > 1.0 - reliability and renewal.reach < tau[-1]:
+                renewal = solved_renewal(headways, critical_gap, float(tau[-1]))
+            solved = int(np.searchsorted(tau, renewal.reach, side="right"))
+            station, speed, tau = station[:solved], speed[:solved], tau[:solved]
+            merged = 1.0 - renewal.not_merged(tau)
         probability = np.where(station >= x_a, merged, 0.0)
     probability = np.maximum.accumulate(np.clip(probability, 0.0, 1.0))
 
@@ -316,15 +416,11 @@ def merge_reliability(
         if i > 0 and probability[i] > probability[i - 1]:
             x = float(np.interp(reliability, probability[i - 1 : i + 1], station[i - 1 : i + 1]))
         length = max(0.0, x - convergence)
-    if headways is None:
-        wait = 0.0
-    else:
-        gaps, weights = stop_critical_gap.nodes()
-        wait = float(weights @ mean_wait(headways, gaps))
+    wait = 0.0 if headways is None else stopped_wait(headways, stop_critical_gap)
     return MergeReliability(
-        station=station,
-        probability=probability,
-        stream_time=tau,
+        curve=MergeCurve(station, probability, tau),
+        stream_time_at_lane_end=float(np.interp(lane_end, station, tau)),
+        stream_time_at_taper_end=float(np.interp(taper_end, station, tau)),
         eligible_station=x_a,
         by_lane_end=by_lane_end,
         by_taper_end=by_taper_end,
@@ -384,7 +480,7 @@ def monte_carlo_check(
             else [float(lane_end >= result.eligible_station), float(taper_end >= result.eligible_station)]
         )
         return MonteCarloCheck(count, p[0], p[1], 0.0)
-    tau_at = np.interp([lane_end, taper_end], result.station, result.stream_time)
+    tau_at = [result.stream_time_at_lane_end, result.stream_time_at_taper_end]
     merged_at = simulate_merges(headways, critical_gap, count, float(tau_at[-1]), np.random.default_rng(seed))
     probabilities = [
         float(np.mean(merged_at <= t)) if x >= result.eligible_station else 0.0

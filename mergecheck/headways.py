@@ -28,6 +28,7 @@ Adams, W. F. (1936). "Road traffic considered as a random series." J. Instn Civi
 from __future__ import annotations
 
 import math
+from collections.abc import Hashable
 from dataclasses import dataclass
 from typing import Protocol
 
@@ -37,8 +38,8 @@ from numpy.typing import ArrayLike, NDArray
 FloatArray = NDArray[np.float64]
 
 
-class HeadwayModel(Protocol):
-    """What the gap-acceptance code needs from a headway distribution."""
+class HeadwayModel(Hashable, Protocol):
+    """What the gap-acceptance code needs from a headway distribution (immutable and hashable)."""
 
     @property
     def flow(self) -> float:

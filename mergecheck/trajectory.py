@@ -64,6 +64,8 @@ _TOLERANCE = 1e-9  # relative and absolute, on u [m^2/s^2] and t [s]
 _SAFETY, _MIN_FACTOR, _MAX_FACTOR = 0.9, 0.2, 10.0  # step-size control (Hairer et al. II.4)
 _TAIL_THINNING = 10  # beyond `detail_until` samples are this many output steps apart
 _A, _B, _C, _E, _P = RK45.A, RK45.B, RK45.C, RK45.E, RK45.P  # Dormand-Prince 5(4) and its dense output
+# Weighted sums of stages use numpy.einsum, not BLAS: the arrays are small and BLAS threads would
+# fight the batch's worker processes for the cores.
 
 
 @dataclass(frozen=True, slots=True)
@@ -424,12 +426,12 @@ class _State:
         k = np.empty((7, *y.shape))
         k[0] = self._rhs(x, y, edge)
         for s in range(1, 6):
-            k[s] = self._rhs(x + _C[s] * h, y + h * np.tensordot(_A[s, :s], k[:s], axes=1), edge)
-        y_new = y + h * np.tensordot(_B, k[:6], axes=1)
+            k[s] = self._rhs(x + _C[s] * h, y + h * np.einsum("s,s...->...", _A[s, :s], k[:s]), edge)
+        y_new = y + h * np.einsum("s,s...->...", _B, k[:6])
         x_new = np.where(h >= limit - x, limit, x + h)  # land exactly on breakpoints and stops
         k[6] = self._rhs(x_new, y_new, edge)
         scale = _TOLERANCE + _TOLERANCE * np.maximum(np.abs(y), np.abs(y_new))
-        norm = np.sqrt(np.mean((h * np.tensordot(_E, k, axes=1) / scale) ** 2, axis=0))
+        norm = np.sqrt(np.mean((h * np.einsum("s,s...->...", _E, k) / scale) ** 2, axis=0))
         accept = norm < 1.0
         factor = np.where(norm == 0.0, _MAX_FACTOR, _SAFETY * np.maximum(norm, 1e-300) ** -0.2)
         grow = np.where(self.rejected[live], np.minimum(factor, 1.0), np.minimum(factor, _MAX_FACTOR))
@@ -441,7 +443,7 @@ class _State:
         cols = live[taken]
         x0, h, end = x[taken], h[taken], x_new[taken]
         y0, y1 = y[:, taken], y_new[:, taken]
-        q = np.tensordot(_P.T, k[:, :, taken], axes=1)  # (4, 2, m): continuous extension
+        q = np.einsum("sj,s...->j...", _P, k[:, :, taken])  # (4, 2, m): continuous extension
         # the target speed, first reached inside this step
         hit = np.flatnonzero(~self.reached[cols] & (y1[0] >= 0.5 * self.target[cols] ** 2))
         if hit.size:

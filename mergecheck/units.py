@@ -11,7 +11,9 @@ as a parsec, which would turn "1800 pc/h" into a speed).
 
 from __future__ import annotations
 
+import functools
 import math
+import re
 from dataclasses import dataclass
 from typing import Any, Literal
 
@@ -66,6 +68,12 @@ def parse_quantity(text: object, kind: str, *, source: str, field: str) -> float
         raise _bad(source, field, f"a unit is required: expected {example}, got the bare number {text!r}")
     if not isinstance(text, str):
         raise _bad(source, field, f"expected {example}, got {text!r}")
+    quick = _NUMBER_AND_UNIT.fullmatch(text)
+    if quick:  # the common 'number unit' form: pint reads the unit once, the number is a float
+        factor = _unit_factor(quick["unit"], kind)
+        value = float(quick["number"]) * factor if factor is not None else math.nan
+        if math.isfinite(value):
+            return value
     try:
         quantity: Any = ureg.Quantity(text.strip())
     except Exception:  # pint's parser raises many kinds (tokenize, assertion, pint, value errors) on odd text
@@ -83,6 +91,26 @@ def parse_quantity(text: object, kind: str, *, source: str, field: str) -> float
     return value
 
 
+_NUMBER_AND_UNIT = re.compile(
+    r"\s*(?P<number>[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(?P<unit>[A-Za-z%][A-Za-z0-9%/*^. ]*?)\s*"
+)
+
+
+@functools.lru_cache(maxsize=1024)
+def _unit_factor(unit: str, kind: str) -> float | None:
+    """SI value of one ``unit`` of this kind of quantity; None when pint does not read it as one.
+
+    None sends the text to the full parser, which explains what is wrong.
+    """
+    try:
+        quantity: Any = ureg.Quantity(f"1 {unit}")
+        if not isinstance(quantity, pint.Quantity) or quantity.units == ureg.dimensionless:
+            return None
+        return float(quantity.to(_KINDS[kind][0] or "dimensionless").magnitude)
+    except Exception:  # pint raises many kinds on odd text
+        return None
+
+
 def si_unit(kind: str) -> str:
     """The SI unit a kind of quantity is stored in, e.g. 'kg/W' for a weight-to-power ratio."""
     return _KINDS[kind][0]
@@ -90,7 +118,13 @@ def si_unit(kind: str) -> str:
 
 def counts_passenger_cars(text: str) -> bool:
     """Whether a flow was written in passenger cars (pc, pcu) rather than vehicles; call after parse_quantity."""
-    return "passenger_car" in str(ureg.Quantity(text.strip()).units)
+    quick = _NUMBER_AND_UNIT.fullmatch(text)
+    return _names_passenger_cars(quick["unit"] if quick else text.strip())
+
+
+@functools.lru_cache(maxsize=256)
+def _names_passenger_cars(text: str) -> bool:
+    return "passenger_car" in str(ureg.Quantity(text).units)
 
 
 def number(si_value: float | None, kind: str, system: UnitSystem) -> str:

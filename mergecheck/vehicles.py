@@ -27,6 +27,7 @@ vehicle id is accepted.
 
 from __future__ import annotations
 
+import functools
 import importlib.resources
 import math
 from collections.abc import Iterable
@@ -138,6 +139,7 @@ class DesignVehicle:
         return None if self.physical is None else self.physical.weight_to_power
 
 
+@functools.cache
 def bundled_profiles() -> Traversable:
     """Folder of the profiles shipped with the package."""
     try:
@@ -148,7 +150,12 @@ def bundled_profiles() -> Traversable:
 
 def bundled_ids() -> list[str]:
     """Ids of the bundled design vehicles, sorted."""
-    return sorted(p.name.removesuffix(".yaml") for p in bundled_profiles().iterdir() if p.name.endswith(".yaml"))
+    return list(_bundled_ids())
+
+
+@functools.cache
+def _bundled_ids() -> tuple[str, ...]:
+    return tuple(sorted(p.name.removesuffix(".yaml") for p in bundled_profiles().iterdir() if p.name.endswith(".yaml")))
 
 
 def load_vehicle(
@@ -187,8 +194,9 @@ def load_bundled() -> list[DesignVehicle]:
     return [load_vehicle(vid) for vid in bundled_ids()]
 
 
+@functools.lru_cache(maxsize=256)
 def parse_vehicle(text: str, source: str) -> DesignVehicle:
-    """Validate a profile's YAML text into a :class:`DesignVehicle`."""
+    """Validate a profile's YAML text into a :class:`DesignVehicle` (immutable, so shared between sites)."""
     data = validated(parse_yaml(text, source), _ProfileFile, source, "a vehicle profile")
     try:
         entry = model_entry(data.model)

@@ -116,9 +116,10 @@ def test_reliability_consequences() -> None:
     assert result.stops_per_h == pytest.approx(300 * (1 - result.by_taper_end))
     assert result.forced_merges_per_h == pytest.approx(300 * (result.by_taper_end - result.by_lane_end))
     assert result.length_for_reliability is not None
-    assert float(np.interp(100.0 + result.length_for_reliability, result.station, result.probability)) == pytest.approx(
-        0.95, abs=1e-3
-    )
+    assert result.curve is not None
+    assert float(
+        np.interp(100.0 + result.length_for_reliability, result.curve.station, result.curve.probability)
+    ) == pytest.approx(0.95, abs=1e-3)
     assert result.mean_stopped_wait > 0
 
 

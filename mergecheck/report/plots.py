@@ -155,9 +155,11 @@ def speed_figure(assessment: SiteAssessment, system: UnitSystem) -> str:
     c = _converter("length", system)
     s = _converter("speed", system)
     for i, v in enumerate(assessment.vehicles):
-        t = v.trajectory
-        keep = t.station <= end
-        ax.plot(c(t.station[keep]), s(t.speed[keep]), label=v.vehicle.id, **_vehicle_line(i))
+        if v.trajectory is None:
+            raise ValueError("the speed figure needs the trajectories (a full single-site assessment)")
+        station, speed, _ = v.trajectory.samples()
+        keep = station <= end
+        ax.plot(c(station[keep]), s(speed[keep]), label=v.vehicle.id, **_vehicle_line(i))
         if v.merge_station is not None and v.merge_station <= end:
             ax.plot(c(v.merge_station), s(v.merge_speed), marker=MARKERS[i % 6], color=PALETTE[i % 6], markersize=6)
         elif v.crawl_speed is not None:
@@ -186,7 +188,9 @@ def merge_figure(assessment: SiteAssessment, system: UnitSystem) -> str:
     fig, ax = plt.subplots(figsize=(7.5, 3.0))
     c = _converter("length", system)
     for i, v in enumerate(assessment.vehicles):
-        m = v.merge
+        m = v.merge.curve
+        if m is None:
+            raise ValueError("the merge figure needs the probability curves (a full single-site assessment)")
         keep = m.station <= end
         ax.plot(c(m.station[keep]), m.probability[keep], label=v.vehicle.id, **_vehicle_line(i))
     target = assessment.site.gaps.reliability
