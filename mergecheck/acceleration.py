@@ -206,8 +206,11 @@ class ModelStack:
     def of(cls, models: Sequence[AccelerationModel]) -> tuple[NDArray[np.intp], ModelStack]:
         """Stack models; returns the column order (indices into ``models``) and the stack."""
         groups: dict[Hashable, list[int]] = {}
+        shapes: dict[int, Hashable] = {}  # models are often shared objects: work out each one's shape once
         for i, model in enumerate(models):
-            groups.setdefault(_shape(model), []).append(i)
+            if id(model) not in shapes:
+                shapes[id(model)] = _shape(model)
+            groups.setdefault(shapes[id(model)], []).append(i)
         order = np.array([i for members in groups.values() for i in members], dtype=np.intp)
         bounds, stacked, start = [], [], 0
         for members in groups.values():

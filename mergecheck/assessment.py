@@ -29,7 +29,14 @@ import numpy as np
 from numpy.typing import NDArray
 
 from .cautions import CAUTIONS
-from .gap_acceptance import CriticalGap, MergeReliability, MonteCarloCheck, merge_reliability, monte_carlo_check
+from .gap_acceptance import (
+    CriticalGap,
+    MergeReliability,
+    MergeSetting,
+    MonteCarloCheck,
+    merge_reliabilities,
+    monte_carlo_check,
+)
 from .headways import HeadwayModel, headway_model
 from .merge_operations import MergeOperations, merge_operations
 from .policy import PolicyTable, PolicyValue, initial_speed_for, load_policy, policy_minimum
@@ -41,7 +48,9 @@ from .vehicles import DesignVehicle
 RELIABILITY_SEARCH = 3000.0
 """How far beyond the taper the lane is imagined extended to find the length for the target reliability. [m]"""
 MERGE_GRID = 5.0
-"""Spacing of the stations at which the merge probability is evaluated (landmarks added). [m]"""
+"""Spacing of the stations at which the merge probability is evaluated along the lane and taper. [m]"""
+SEARCH_GRID = 10.0
+"""Spacing of those stations in the search beyond the taper (an imagined longer lane). [m]"""
 FloatArray = NDArray[np.float64]
 VehicleVerdict = Literal["meets", "short", "cannot-reach"]
 SiteVerdict = Literal["meets", "short"]
@@ -164,38 +173,20 @@ def trajectory_run(site: Site, entry: SiteVehicle, initial_speed: float) -> Run:
 
 
 def merge_stations(site: Site) -> FloatArray:
-    """Stations for the merge probability: every MERGE_GRID metres from the convergence point, with the landmarks."""
+    """Stations for the merge probability from the convergence point: every MERGE_GRID metres to the end of the
+    taper, every SEARCH_GRID metres beyond, and the landmarks."""
     far = site.taper_end + RELIABILITY_SEARCH
-    grid = np.arange(site.convergence, far, MERGE_GRID)
-    landmarks = [site.convergence + site.available_length, site.taper_start, site.taper_end, far]
-    return np.unique(np.concatenate([grid, landmarks]))
+    along = np.arange(site.convergence, site.taper_end, MERGE_GRID)
+    beyond = np.arange(site.taper_end, far, SEARCH_GRID)
+    landmarks = [site.convergence + site.available_length, site.taper_start, far]
+    return np.unique(np.concatenate([along, beyond, landmarks]))
 
 
-def assess_vehicle(
-    site: Site,
-    entry: SiteVehicle,
-    initial_speed: float,
-    trajectory: Trajectory,
-    stations: FloatArray,
-    monte_carlo: int = 0,
-    seed: int = 0,
-) -> VehicleAssessment:
-    """Read one design vehicle's integrated trajectory against the lane and the adjacent stream.
-
-    ``stations`` are where the merge probability is evaluated (:func:`merge_stations`).
-    """
-    at_convergence, at_taper_start, at_taper_end = (
-        float(v) for v in trajectory.speed_at([site.convergence, site.taper_start, site.taper_end])
-    )
-    merge_station = trajectory.target_station
-    available = site.available_length
-    required = None if merge_station is None else max(0.0, merge_station - site.convergence)
-    differential = site.operating_speed - at_taper_start
-    merge = merge_reliability(
-        stations,
-        trajectory.speed_at(np.minimum(stations, trajectory.end)),  # held at its last speed beyond the path
+def merge_setting(site: Site, entry: SiteVehicle) -> MergeSetting:
+    """What a design vehicle's merge probability at the site depends on besides its speeds."""
+    return MergeSetting(
         convergence=site.convergence,
-        lane_end=site.convergence + available,
+        lane_end=site.convergence + site.available_length,
         taper_end=site.taper_end,
         stream_speed=site.operating_speed,
         merge_speed=entry.merge_speed,
@@ -208,6 +199,34 @@ def assess_vehicle(
         flow=entry.share * site.ramp_flow,
         search_length=site.taper_end - site.convergence + RELIABILITY_SEARCH,  # as far as the trajectory
     )
+
+
+def landmark_speeds(site: Site, trajectory: Trajectory, stations: FloatArray) -> FloatArray:
+    """Speed at the convergence point, the start and the end of the taper, then at ``stations``
+    (held at the last speed beyond the integrated path). [m/s]"""
+    landmarks = [site.convergence, site.taper_start, site.taper_end]
+    return trajectory.speed_at(np.minimum(np.concatenate([landmarks, stations]), trajectory.end))
+
+
+def assess_vehicle(
+    site: Site,
+    entry: SiteVehicle,
+    initial_speed: float,
+    trajectory: Trajectory,
+    speeds: FloatArray,
+    merge: MergeReliability,
+    monte_carlo: int = 0,
+    seed: int = 0,
+) -> VehicleAssessment:
+    """Read one design vehicle's trajectory and merge probability against the lane.
+
+    ``speeds`` start with the speeds at the three landmarks (:func:`landmark_speeds`).
+    """
+    at_convergence, at_taper_start, at_taper_end = (float(v) for v in speeds[:3])
+    merge_station = trajectory.target_station
+    available = site.available_length
+    required = None if merge_station is None else max(0.0, merge_station - site.convergence)
+    differential = site.operating_speed - at_taper_start
     simulated = None
     if monte_carlo > 0:
         simulated = monte_carlo_check(
@@ -295,10 +314,25 @@ def assess_many(sites: list[Site], *, monte_carlo: int = 0, seed: int = 20261202
         for site, (speed, _) in zip(sites, initial, strict=True)
         for entry in site.vehicles
     ]
-    trajectories = iter(accelerate_many(runs))
+    trajectories = accelerate_many(runs)
+    stations = [merge_stations(site) for site in sites]
+    entries = [(k, entry) for k, site in enumerate(sites) for entry in site.vehicles]
+    speeds = [
+        landmark_speeds(sites[k], trajectory, stations[k])
+        for (k, _), trajectory in zip(entries, trajectories, strict=True)
+    ]
+    merges = merge_reliabilities(
+        [stations[k] for k, _ in entries], [v[3:] for v in speeds], [merge_setting(sites[k], e) for k, e in entries]
+    )
+    vehicles: list[list[VehicleAssessment]] = [[] for _ in sites]
+    for (k, entry), trajectory, v, merge in zip(entries, trajectories, speeds, merges, strict=True):
+        order = len(vehicles[k])
+        vehicles[k].append(
+            assess_vehicle(sites[k], entry, initial[k][0], trajectory, v, merge, monte_carlo, seed + order)
+        )
     return [
-        _site_assessment(site, table, speed, basis, [next(trajectories) for _ in site.vehicles], monte_carlo, seed)
-        for site, table, (speed, basis) in zip(sites, tables, initial, strict=True)
+        _site_assessment(site, table, speed, basis, tuple(results))
+        for site, table, (speed, basis), results in zip(sites, tables, initial, vehicles, strict=True)
     ]
 
 
@@ -321,17 +355,11 @@ def _site_assessment(
     policy_table: PolicyTable | None,
     initial: float,
     initial_basis: str,
-    trajectories: list[Trajectory],
-    monte_carlo: int,
-    seed: int,
+    results: tuple[VehicleAssessment, ...],
 ) -> SiteAssessment:
-    stations = merge_stations(site)
-    results = tuple(
-        assess_vehicle(site, entry, initial, trajectory, stations, monte_carlo, seed + i)
-        for i, (entry, trajectory) in enumerate(zip(site.vehicles, trajectories, strict=True))
-    )
     governing = governing_vehicle(results)
-    rise = float(site.profile.elevation(site.taper_start) - site.profile.elevation(site.convergence))
+    at_convergence, at_lane_end = site.profile.elevation([site.convergence, site.taper_start])
+    rise = float(at_lane_end - at_convergence)
     average_grade = rise / site.lane_length
     policy = None
     if policy_table is not None:
@@ -427,7 +455,7 @@ def _assumptions(
         Assumption(
             "Integration",
             "speed integrated along distance, grade as a function of station",
-            "Dormand-Prince 5(4) with step-size control, tolerance 1e-9 (SciPy's coefficients); checked against "
+            "Dormand-Prince 5(4) with step-size control, tolerance 1e-8 on speed squared and 1e-9 on time (SciPy's coefficients); checked against "
             "closed forms and an independent time-domain solution in the test suite",
         ),
     ]

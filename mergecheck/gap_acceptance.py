@@ -48,6 +48,7 @@ from __future__ import annotations
 import functools
 import importlib.resources
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -58,7 +59,7 @@ from scipy.fft import irfft, next_fast_len, rfft
 from .headways import HeadwayModel, mean_wait
 
 FloatArray = NDArray[np.float64]
-_NODES = 10  # Gauss-Hermite nodes over the log-normal critical gap (within 2e-5 of 24 nodes)
+_NODES = 8  # Gauss-Hermite nodes over the log-normal critical gap (within 3e-5 of 24 nodes)
 FIRST_REACH = 20.0
 """Stream time solved first; most drivers who merge at all have merged by then. [s]"""
 REACH_STEP = 5.0
@@ -152,16 +153,46 @@ def stream_time(
     hold_speed
         The driver holds this speed once reached (the merge speed). [m/s]
     """
-    v = np.minimum(np.maximum(speed, 0.1), hold_speed)
-    rate = np.maximum(np.abs(stream_speed - v), search_speed) / (stream_speed * v)
-    rate = np.where(station >= eligible_from, rate, 0.0)
-    tau = np.concatenate([[0.0], np.cumsum(0.5 * (rate[1:] + rate[:-1]) * np.diff(station))])
-    # the first segment that crosses x_a counts only its part past x_a
-    first = np.searchsorted(station, eligible_from)
-    if 0 < first < station.size:
-        partial = (station[first] - eligible_from) * rate[first]
-        tau = np.where(station >= eligible_from, tau - tau[first] + partial, 0.0)
-    return tau
+
+    def row(value: float) -> FloatArray:
+        return np.array([value], dtype=float)
+
+    tau = _stream_times(
+        np.asarray(station, dtype=float)[None],
+        np.asarray(speed, dtype=float)[None],
+        row(stream_speed),
+        row(search_speed),
+        row(eligible_from),
+        row(hold_speed),
+    )
+    return np.asarray(tau[0], dtype=float)
+
+
+def _stream_times(
+    station: FloatArray,
+    speed: FloatArray,
+    stream_speed: FloatArray,
+    search_speed: FloatArray,
+    eligible_from: FloatArray,
+    hold_speed: FloatArray,
+) -> FloatArray:
+    """:func:`stream_time` for every row of (vehicles, stations) arrays; one value per row for the rest.
+
+    Trapezoidal rule between stations; the segment that crosses x_a counts
+    only its part past x_a.
+    """
+    v = np.minimum(np.maximum(speed, 0.1), hold_speed[:, None])
+    vm = stream_speed[:, None]
+    rate = np.maximum(np.abs(vm - v), search_speed[:, None]) / (vm * v)
+    past = station >= eligible_from[:, None]
+    rate = np.where(past, rate, 0.0)
+    tau = np.zeros_like(station)
+    tau[:, 1:] = np.cumsum(0.5 * (rate[:, 1:] + rate[:, :-1]) * np.diff(station, axis=1), axis=1)
+    rows = np.arange(station.shape[0])
+    first = np.argmax(past, axis=1)
+    crossed = first > 0  # (a row that never becomes eligible has x_a = inf and no station past it)
+    partial = np.where(crossed, (station[rows, first] - np.where(crossed, eligible_from, 0.0)) * rate[rows, first], 0.0)
+    return np.asarray(np.where(past, tau - tau[rows, first][:, None] + partial[:, None], 0.0), dtype=float)
 
 
 class Renewal:
@@ -182,9 +213,11 @@ class Renewal:
     Both convolutions are solved by the discrete Fourier transform,
     U^ = d^ / (1 - r^), P^ = w^ U^, mixed over the nodes before the one
     inverse transform. Circular wrap-around is suppressed by an exponential
-    window: every sequence is multiplied by rho^i with rho^N = 1e-13 (N the
-    transform length, at least twice the cells solved), which the recursion
-    tolerates unchanged, and divided out after (the damped inversion of
+    window: every sequence is multiplied by rho^i with rho^N = 1e-10 (N the
+    transform length, at least 1.25 times the cells solved), which the
+    recursion tolerates unchanged, and divided out after; wrap-around then
+    weighs at most 1e-10 and rounding is magnified at most 1e8-fold (errors
+    near 1e-8) (the damped inversion of
     generating functions: Abate and Whitt 1992, "Numerical inversion of
     probability generating functions", Operations Research Letters 12(4),
     245-251, from memory).
@@ -217,7 +250,7 @@ class Renewal:
         end = np.maximum(np.minimum(start + dt, gaps[:, None]), start)
         area = headways.survival_integral(end) - headways.survival_integral(start)
         w = np.clip(area - headways.survival(gaps)[:, None] * (end - start), 0.0, None) / mu
-        size = next_fast_len(2 * max(cells, width + 1), real=True)
+        size = next_fast_len(max(math.ceil(1.25 * cells), width + 2), real=True)
         window = _window(size)
         sequences = np.zeros((3, gaps.size, size))
         sequences[0, :, :width] = rejected * window[:width]
@@ -244,8 +277,8 @@ class Renewal:
 
 @functools.lru_cache(maxsize=64)
 def _window(size: int) -> FloatArray:
-    """rho^i with rho^size = 1e-13 (Renewal)."""
-    window = 10.0 ** (-13.0 * np.arange(size) / size)
+    """rho^i with rho^size = 1e-10 (Renewal)."""
+    window = 10.0 ** (-10.0 * np.arange(size) / size)
     window.flags.writeable = False
     return window
 
@@ -351,6 +384,28 @@ class MergeReliability:
     """Mean wait of a stopped vehicle for a gap (from-stop critical gap). [s]"""
 
 
+@dataclass(frozen=True, slots=True, kw_only=True)
+class MergeSetting:
+    """What one design vehicle's merge probability depends on besides its speeds (SI units).
+
+    See :func:`merge_reliability` for each field.
+    """
+
+    convergence: float
+    lane_end: float
+    taper_end: float
+    stream_speed: float
+    merge_speed: float
+    minimum_merge_speed: float
+    search_speed: float
+    headways: HeadwayModel | None
+    critical_gap: CriticalGap
+    stop_critical_gap: CriticalGap
+    reliability: float
+    flow: float
+    search_length: float = 3000.0
+
+
 def merge_reliability(
     station: FloatArray,
     speed: FloatArray,
@@ -380,71 +435,143 @@ def merge_reliability(
     by then. ``headways`` None means an empty adjacent lane: every vehicle
     merges where it becomes eligible.
     """
-    far = convergence + search_length
-    if station[-1] < far:
-        station = np.append(station, far)
-        speed = np.append(speed, speed[-1])
-    x_a = eligible_station(station, speed, convergence, minimum_merge_speed)
-    tau = np.zeros_like(station)
-    if x_a is None:
-        probability = np.zeros_like(station)
-    else:
-        tau = stream_time(station, speed, stream_speed, search_speed, x_a, merge_speed)
-        if headways is None:
-            merged = np.ones_like(station)
-        else:
-            # solve past the taper end (and at least FIRST_REACH); on to the search's end only if still short
-            reach = min(float(tau[-1]), max(float(np.interp(taper_end, station, tau)), FIRST_REACH))
-            renewal = solved_renewal(headways, critical_gap, reach)
-            if renewal.values[-1] > 1.0 - reliability and renewal.reach < tau[-1]:
-                renewal = solved_renewal(headways, critical_gap, float(tau[-1]))
-            solved = int(np.searchsorted(tau, renewal.reach, side="right"))
-            station, speed, tau = station[:solved], speed[:solved], tau[:solved]
-            merged = 1.0 - renewal.not_merged(tau)
-        probability = np.where(station >= x_a, merged, 0.0)
-    probability = np.maximum.accumulate(np.clip(probability, 0.0, 1.0))
-
-    def at(x: float) -> float:
-        return float(np.interp(x, station, probability))
-
-    by_lane_end, by_taper_end = at(lane_end), at(taper_end)
-    reached = np.flatnonzero(probability >= reliability)
-    length = None
-    if reached.size:
-        i = int(reached[0])
-        x = float(station[i])
-        if i > 0 and probability[i] > probability[i - 1]:
-            x = float(np.interp(reliability, probability[i - 1 : i + 1], station[i - 1 : i + 1]))
-        length = max(0.0, x - convergence)
-    wait = 0.0 if headways is None else stopped_wait(headways, stop_critical_gap)
-    return MergeReliability(
-        curve=MergeCurve(station, probability, tau),
-        stream_time_at_lane_end=float(np.interp(lane_end, station, tau)),
-        stream_time_at_taper_end=float(np.interp(taper_end, station, tau)),
-        eligible_station=x_a,
-        by_lane_end=by_lane_end,
-        by_taper_end=by_taper_end,
+    setting = MergeSetting(
+        convergence=convergence,
+        lane_end=lane_end,
+        taper_end=taper_end,
+        stream_speed=stream_speed,
+        merge_speed=merge_speed,
+        minimum_merge_speed=minimum_merge_speed,
+        search_speed=search_speed,
+        headways=headways,
+        critical_gap=critical_gap,
+        stop_critical_gap=stop_critical_gap,
         reliability=reliability,
-        length_for_reliability=length,
-        forced_merges_per_h=flow * 3600 * max(0.0, by_taper_end - by_lane_end),
-        stops_per_h=flow * 3600 * (1.0 - by_taper_end),
-        mean_stopped_wait=wait,
+        flow=flow,
+        search_length=search_length,
     )
+    return merge_reliabilities([station], [speed], [setting])[0]
 
 
-def eligible_station(station: FloatArray, speed: FloatArray, convergence: float, minimum: float) -> float | None:
-    """First station past the convergence point where the speed reaches ``minimum``; None if never. [m]
+def merge_reliabilities(
+    stations: Sequence[FloatArray], speeds: Sequence[FloatArray], settings: Sequence[MergeSetting]
+) -> list[MergeReliability]:
+    """:func:`merge_reliability` for many vehicles at once, one row each; rows do not interact.
+
+    Rows are padded to a common length by repeating their last sample (zero-length segments add no
+    stream time); each row has its own renewal solution (:func:`solved_renewal`).
+    """
+    rows: list[tuple[FloatArray, FloatArray]] = []
+    for station, speed, setting in zip(stations, speeds, settings, strict=True):
+        station, speed = np.asarray(station, dtype=float), np.asarray(speed, dtype=float)
+        far = setting.convergence + setting.search_length
+        if station[-1] < far:
+            station, speed = np.append(station, far), np.append(speed, speed[-1])
+        rows.append((station, speed))
+    count = np.array([x.size for x, _ in rows])
+    width = int(count.max())
+    station = np.stack([np.pad(x, (0, width - x.size), mode="edge") for x, _ in rows])
+    speed = np.stack([np.pad(v, (0, width - v.size), mode="edge") for _, v in rows])
+
+    def column(name: str) -> FloatArray:
+        return np.array([getattr(s, name) for s in settings], dtype=float)
+
+    convergence, lane_end, taper_end = column("convergence"), column("lane_end"), column("taper_end")
+    reliability, flow = column("reliability"), column("flow")
+    x_a = _eligible_stations(station, speed, count, convergence, column("minimum_merge_speed"))
+    eligible = ~np.isnan(x_a)
+    start = np.where(eligible, x_a, np.inf)
+    tau = _stream_times(station, speed, column("stream_speed"), column("search_speed"), start, column("merge_speed"))
+    tau_taper_end = _at(station, tau, count, taper_end)
+    merged = np.zeros_like(station)
+    solved = count.copy()
+    for r, setting in enumerate(settings):
+        if not eligible[r]:
+            continue
+        if setting.headways is None:
+            merged[r] = 1.0
+            continue
+        # solve past the taper end (and at least FIRST_REACH); on to the search's end only if still short
+        last = float(tau[r, count[r] - 1])
+        reach = min(last, max(float(tau_taper_end[r]), FIRST_REACH))
+        renewal = solved_renewal(setting.headways, setting.critical_gap, reach)
+        if renewal.values[-1] > 1.0 - setting.reliability and renewal.reach < last:
+            renewal = solved_renewal(setting.headways, setting.critical_gap, last)
+        solved[r] = int(np.searchsorted(tau[r, : count[r]], renewal.reach, side="right"))
+        merged[r] = 1.0 - renewal.not_merged(tau[r])
+    probability = np.where(station >= start[:, None], merged, 0.0)
+    probability = np.maximum.accumulate(np.clip(probability, 0.0, 1.0), axis=1)
+    by_lane_end = _at(station, probability, solved, lane_end)
+    by_taper_end = _at(station, probability, solved, taper_end)
+    length = _first_reaching(station, probability, solved, reliability) - convergence
+    tau_lane_end = _at(station, tau, solved, lane_end)
+    results = []
+    for r, setting in enumerate(settings):
+        n = solved[r]
+        headways = setting.headways
+        results.append(
+            MergeReliability(
+                curve=MergeCurve(station[r, :n], probability[r, :n], tau[r, :n]),
+                stream_time_at_lane_end=float(tau_lane_end[r]),
+                stream_time_at_taper_end=float(tau_taper_end[r]),
+                eligible_station=float(x_a[r]) if eligible[r] else None,
+                by_lane_end=float(by_lane_end[r]),
+                by_taper_end=float(by_taper_end[r]),
+                reliability=setting.reliability,
+                length_for_reliability=None if np.isnan(length[r]) else max(0.0, float(length[r])),
+                forced_merges_per_h=float(flow[r] * 3600 * max(0.0, by_taper_end[r] - by_lane_end[r])),
+                stops_per_h=float(flow[r] * 3600 * (1.0 - by_taper_end[r])),
+                mean_stopped_wait=0.0 if headways is None else stopped_wait(headways, setting.stop_critical_gap),
+            )
+        )
+    return results
+
+
+def _at(station: FloatArray, values: FloatArray, count: NDArray[np.intp], x: FloatArray) -> FloatArray:
+    """Each row's values, linear between its first ``count`` stations, at the row's own station x."""
+    rows = np.arange(station.shape[0])
+    j = np.clip(np.sum(station <= x[:, None], axis=1) - 1, 0, np.maximum(count - 2, 0))
+    k = np.minimum(j + 1, count - 1)
+    span = station[rows, k] - station[rows, j]
+    share = np.divide(x - station[rows, j], span, out=np.zeros_like(x), where=span > 0)
+    return np.asarray(values[rows, j] + share * (values[rows, k] - values[rows, j]), dtype=float)
+
+
+def _first_reaching(
+    station: FloatArray, probability: FloatArray, count: NDArray[np.intp], target: FloatArray
+) -> FloatArray:
+    """First station of each row where the probability reaches the target (linear between stations); NaN if none."""
+    rows = np.arange(station.shape[0])
+    hit = (probability >= target[:, None]) & (np.arange(station.shape[1]) < count[:, None])
+    i = np.argmax(hit, axis=1)
+    before = np.maximum(i - 1, 0)
+    rise = probability[rows, i] - probability[rows, before]
+    share = np.divide(target - probability[rows, before], rise, out=np.ones_like(rise), where=(i > 0) & (rise > 0))
+    x = station[rows, before] + share * (station[rows, i] - station[rows, before])
+    return np.asarray(np.where(hit.any(axis=1), x, np.nan), dtype=float)
+
+
+def _eligible_stations(
+    station: FloatArray, speed: FloatArray, count: NDArray[np.intp], convergence: FloatArray, minimum: FloatArray
+) -> FloatArray:
+    """First station of each row past the convergence point where the speed reaches ``minimum``; NaN if never. [m]
 
     Between samples the crossing is interpolated linearly in v^2 (exact for constant acceleration).
     """
-    eligible = (station >= convergence) & (speed >= minimum)
-    if not eligible.any():
-        return None
-    i = int(np.argmax(eligible))
-    if i == 0 or speed[i - 1] >= minimum:
-        return float(station[i])
-    crossing = np.interp(minimum**2, [speed[i - 1] ** 2, speed[i] ** 2], station[i - 1 : i + 1])
-    return max(float(crossing), convergence)
+    rows = np.arange(station.shape[0])
+    eligible = (station >= convergence[:, None]) & (speed >= minimum[:, None])
+    eligible &= np.arange(station.shape[1]) < count[:, None]
+    i = np.argmax(eligible, axis=1)
+    before = np.maximum(i - 1, 0)
+    low, high = speed[rows, before] ** 2, speed[rows, i] ** 2
+    crossing = (i > 0) & (low < minimum**2)
+    share = np.divide(minimum**2 - low, high - low, out=np.zeros_like(low), where=crossing)
+    x = np.where(
+        crossing,
+        np.maximum(station[rows, before] + share * (station[rows, i] - station[rows, before]), convergence),
+        station[rows, i],
+    )
+    return np.asarray(np.where(eligible.any(axis=1), x, np.nan), dtype=float)
 
 
 @dataclass(frozen=True, slots=True)

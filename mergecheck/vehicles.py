@@ -185,8 +185,12 @@ def load_vehicle(
         raise InputError(
             source, field or ref, f"unknown vehicle id; known ids: {', '.join(bundled_ids())}, or a profile file path"
         )
-    text = (bundled_profiles() / f"{ref}.yaml").read_text(encoding="utf-8")
-    return parse_vehicle(text, ref)
+    return parse_vehicle(_bundled_text(ref), ref)
+
+
+@functools.cache
+def _bundled_text(ref: str) -> str:
+    return (bundled_profiles() / f"{ref}.yaml").read_text(encoding="utf-8")
 
 
 def load_bundled() -> list[DesignVehicle]:
