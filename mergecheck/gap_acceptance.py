@@ -62,8 +62,6 @@ FloatArray = NDArray[np.float64]
 _NODES = 8  # Gauss-Hermite nodes over the log-normal critical gap (within 3e-5 of 24 nodes)
 FIRST_REACH = 20.0
 """Stream time solved first; most drivers who merge at all have merged by then. [s]"""
-REACH_STEP = 5.0
-"""Stream time is solved in whole steps of this. [s]"""
 
 
 @dataclass(frozen=True, slots=True)
@@ -235,9 +233,12 @@ class Renewal:
     """
 
     def __init__(
-        self, headways: HeadwayModel, critical_gap: CriticalGap, reach: float, step: float | None = None
+        self, headways: HeadwayModel, critical_gaps: Sequence[CriticalGap], reach: float, step: float | None = None
     ) -> None:
-        gaps, weights = critical_gap.nodes()
+        nodes = [gap.nodes() for gap in critical_gaps]
+        gaps = np.concatenate([g for g, _ in nodes])
+        weights = np.concatenate([w for _, w in nodes])
+        starts = np.cumsum([0] + [g.size for g, _ in nodes[:-1]])  # each distribution's first node
         mu = headways.mean()
         dt = self.step = step or min(0.05, mu / 40.0)
         cells = math.ceil(max(reach, dt) / dt) + 1
@@ -257,22 +258,23 @@ class Renewal:
         sequences[1, :, : width - 1] = np.cumsum(rejected[:, ::-1], axis=1)[:, ::-1][:, 1:] * window[: width - 1]
         sequences[2, :, 1 : width + 1] = w * window[1 : width + 1]  # placed at index i + 1
         r, d, first = rfft(sequences, axis=-1)
-        mixed = irfft(np.einsum("k,k...->...", weights, first * d / (1.0 - r)), n=size)[:cells] / window[:cells]
+        spectra = np.add.reduceat(weights[:, None] * (first * d / (1.0 - r)), starts, axis=0)  # mixed per distribution
+        mixed = irfft(spectra, n=size, axis=-1)[:, :cells] / window[:cells]
         passing = np.cumsum(w[:, ::-1], axis=1)[:, ::-1]  # residual still passing at cell i: sum of w beyond i
         reach_first = min(cells, width)
-        mixed[:reach_first] += np.einsum("k,k...->...", weights, passing)[:reach_first]
+        mixed[:, :reach_first] += np.add.reduceat(weights[:, None] * passing, starts, axis=0)[:, :reach_first]
         self.values: FloatArray = np.clip(mixed, 0.0, 1.0)
-        """Mixed P_not at each cell (read-only: solutions are shared)."""
-        self.values.flags.writeable = False
+        """Mixed P_not at each cell, one row per critical-gap distribution."""
 
     @property
     def reach(self) -> float:
         """Largest stream time solved. [s]"""
-        return float((self.values.size - 1) * self.step)
+        return float((self.values.shape[1] - 1) * self.step)
 
-    def not_merged(self, tau: FloatArray) -> FloatArray:
-        """P_not at stream times within the solved range, mixed over drivers (linear between cells). [-]"""
-        return np.asarray(np.interp(tau, np.arange(self.values.size) * self.step, self.values), dtype=float)
+    def not_merged(self, tau: FloatArray, which: int = 0) -> FloatArray:
+        """P_not of distribution ``which`` at stream times within the solved range (linear between cells). [-]"""
+        cells = np.arange(self.values.shape[1]) * self.step
+        return np.asarray(np.interp(tau, cells, self.values[which]), dtype=float)
 
 
 @functools.lru_cache(maxsize=64)
@@ -283,15 +285,21 @@ def _window(size: int) -> FloatArray:
     return window
 
 
-def solved_renewal(headways: HeadwayModel, critical_gap: CriticalGap, reach: float) -> Renewal:
-    """:class:`Renewal` solved at least to ``reach``, rounded up to whole REACH_STEPs and kept for reuse
-    (the truck classes of a site share a stream and a critical gap; a sweep repeats them)."""
-    return _renewal(headways, critical_gap, REACH_STEP * math.ceil(reach / REACH_STEP))
+def solve_renewals(
+    requests: Sequence[tuple[HeadwayModel, CriticalGap, float]],
+) -> list[tuple[Renewal, int]]:
+    """Solve (headways, critical gap, reach) requests, one :class:`Renewal` per stream shared by its requests.
 
-
-@functools.lru_cache(maxsize=64)
-def _renewal(headways: HeadwayModel, critical_gap: CriticalGap, reach: float) -> Renewal:
-    return Renewal(headways, critical_gap, reach)
+    The vehicles of a site share a stream and often a critical gap; one solution serves them all,
+    as far as the farthest reach asked of it. Returns, per request, its solution and row.
+    """
+    streams: dict[HeadwayModel, dict[CriticalGap, None]] = {}
+    reach: dict[HeadwayModel, float] = {}
+    for headways, gap, needed in requests:
+        streams.setdefault(headways, {})[gap] = None
+        reach[headways] = max(reach.get(headways, 0.0), needed)
+    solved = {h: (Renewal(h, list(gaps), reach[h]), list(gaps)) for h, gaps in streams.items()}
+    return [(solved[h][0], solved[h][1].index(gap)) for h, gap, _ in requests]
 
 
 @functools.lru_cache(maxsize=64)
@@ -318,7 +326,7 @@ def not_merged(
         Grid step in tau; default min(0.05 s, mean headway / 40). [s]
     """
     tau = np.asarray(tau, dtype=float)
-    return Renewal(headways, critical_gap, float(tau.max(initial=0.0)), step).not_merged(tau)
+    return Renewal(headways, [critical_gap], float(tau.max(initial=0.0)), step).not_merged(tau)
 
 
 def simulate_merges(
@@ -459,7 +467,7 @@ def merge_reliabilities(
     """:func:`merge_reliability` for many vehicles at once, one row each; rows do not interact.
 
     Rows are padded to a common length by repeating their last sample (zero-length segments add no
-    stream time); each row has its own renewal solution (:func:`solved_renewal`).
+    stream time); rows on the same stream share a renewal solution (:func:`solve_renewals`).
     """
     rows: list[tuple[FloatArray, FloatArray]] = []
     for station, speed, setting in zip(stations, speeds, settings, strict=True):
@@ -469,9 +477,11 @@ def merge_reliabilities(
             station, speed = np.append(station, far), np.append(speed, speed[-1])
         rows.append((station, speed))
     count = np.array([x.size for x, _ in rows])
-    width = int(count.max())
-    station = np.stack([np.pad(x, (0, width - x.size), mode="edge") for x, _ in rows])
-    speed = np.stack([np.pad(v, (0, width - v.size), mode="edge") for _, v in rows])
+    station = np.empty((len(rows), int(count.max())))
+    speed = np.empty_like(station)
+    for r, (x, v) in enumerate(rows):
+        station[r, : x.size], station[r, x.size :] = x, x[-1]
+        speed[r, : v.size], speed[r, v.size :] = v, v[-1]
 
     def column(name: str) -> FloatArray:
         return np.array([getattr(s, name) for s in settings], dtype=float)
@@ -484,21 +494,26 @@ def merge_reliabilities(
     tau = _stream_times(station, speed, column("stream_speed"), column("search_speed"), start, column("merge_speed"))
     tau_taper_end = _at(station, tau, count, taper_end)
     merged = np.zeros_like(station)
+    merged[eligible & np.array([s.headways is None for s in settings])] = 1.0
     solved = count.copy()
-    for r, setting in enumerate(settings):
-        if not eligible[r]:
-            continue
-        if setting.headways is None:
-            merged[r] = 1.0
-            continue
-        # solve past the taper end (and at least FIRST_REACH); on to the search's end only if still short
-        last = float(tau[r, count[r] - 1])
-        reach = min(last, max(float(tau_taper_end[r]), FIRST_REACH))
-        renewal = solved_renewal(setting.headways, setting.critical_gap, reach)
-        if renewal.values[-1] > 1.0 - setting.reliability and renewal.reach < last:
-            renewal = solved_renewal(setting.headways, setting.critical_gap, last)
-        solved[r] = int(np.searchsorted(tau[r, : count[r]], renewal.reach, side="right"))
-        merged[r] = 1.0 - renewal.not_merged(tau[r])
+    last = tau[np.arange(len(settings)), count - 1]
+    # solve past the taper end (and at least FIRST_REACH); on to the search's end only for rows still short
+    pending = {
+        r: min(float(last[r]), max(float(tau_taper_end[r]), FIRST_REACH))
+        for r, s in enumerate(settings)
+        if eligible[r] and s.headways is not None
+    }
+    while pending:
+        asked = list(pending)
+        answers = solve_renewals([(_stream(settings[r]), settings[r].critical_gap, pending[r]) for r in asked])
+        pending = {}
+        for r, (renewal, which) in zip(asked, answers, strict=True):
+            short = renewal.values[which, -1] > 1.0 - settings[r].reliability
+            if short and renewal.reach < last[r]:
+                pending[r] = float(last[r])
+                continue
+            solved[r] = int(np.searchsorted(tau[r, : count[r]], renewal.reach, side="right"))
+            merged[r] = 1.0 - renewal.not_merged(tau[r], which)
     probability = np.where(station >= start[:, None], merged, 0.0)
     probability = np.maximum.accumulate(np.clip(probability, 0.0, 1.0), axis=1)
     by_lane_end = _at(station, probability, solved, lane_end)
@@ -525,6 +540,12 @@ def merge_reliabilities(
             )
         )
     return results
+
+
+def _stream(setting: MergeSetting) -> HeadwayModel:
+    if setting.headways is None:
+        raise ValueError("an empty adjacent lane has no renewal solution")
+    return setting.headways
 
 
 def _at(station: FloatArray, values: FloatArray, count: NDArray[np.intp], x: FloatArray) -> FloatArray:
