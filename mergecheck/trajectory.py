@@ -161,34 +161,33 @@ class Trajectory:
         grid = np.arange(math.floor(head[-1] / step) + 1, math.ceil(self.end / step)) * step
         tail = [self.end] if self.end > head[-1] else []
         station = np.concatenate([head, grid[(grid > head[-1]) & (grid < self.end)], tail])
-        u, t = self._state_at(station)
-        return station, np.sqrt(np.maximum(2.0 * u, 0.0)), t
+        return station, self.speed_at(station), self.time_at(station)
 
     def speed_at(self, station: ArrayLike) -> FloatArray:
         """Speed at stations within the integrated range. [m/s]"""
-        u, _ = self._state_at(np.asarray(station, dtype=float))
+        u = self._state_at(np.asarray(station, dtype=float), 0)
         return np.asarray(np.sqrt(np.maximum(2.0 * u, 0.0)), dtype=float)
 
     def time_at(self, station: ArrayLike) -> FloatArray:
         """Time at stations within the integrated range. [s]"""
-        return self._state_at(np.asarray(station, dtype=float))[1]
+        return self._state_at(np.asarray(station, dtype=float), 1)
 
-    def _state_at(self, x: FloatArray) -> tuple[FloatArray, FloatArray]:
+    def _state_at(self, x: FloatArray, component: int) -> FloatArray:
+        """u = v^2/2 (component 0) or t (component 1) at stations x."""
         if np.any(x < self.start - 1e-9) or np.any(x > self.end + 1e-9):
             raise ValueError("station outside the integrated range")
         u0 = 0.5 * self.initial_speed**2
-        u, t = np.full(x.shape, u0), np.zeros(x.shape)
         p = self.pieces
         if p.x.size:
             i = np.clip(np.searchsorted(p.x, x, side="right") - 1, 0, p.x.size - 1)
-            sigma = (x - p.x[i]) / p.h[i]
-            u, t = _dense(p.y[0, i], p.h[i], p.q[:, 0, i], sigma), _dense(p.y[1, i], p.h[i], p.q[:, 1, i], sigma)
+            value = _dense(p.y[component, i], p.h[i], p.q[:, component, i], (x - p.x[i]) / p.h[i])
+        else:
+            value = np.full(x.shape, u0 if component == 0 else 0.0)
         if self.launch is not None:  # constant acceleration: u = u0 + a (x - x0), t = (v - v0) / a
-            first = x < self.start + _START_STEP
             u_launch = u0 + self.launch * (x - self.start)
-            t_launch = (np.sqrt(2.0 * u_launch) - self.initial_speed) / self.launch
-            u, t = np.where(first, u_launch, u), np.where(first, t_launch, t)
-        return u, t
+            launch = u_launch if component == 0 else (np.sqrt(2.0 * u_launch) - self.initial_speed) / self.launch
+            value = np.where(x < self.start + _START_STEP, launch, value)
+        return np.asarray(value, dtype=float)
 
 
 @dataclass(frozen=True, slots=True)

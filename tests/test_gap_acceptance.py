@@ -11,7 +11,16 @@ import pytest
 from scipy import integrate, stats
 
 from mergecheck.assessment import assess
-from mergecheck.gap_acceptance import CriticalGap, merge_reliability, not_merged, simulate_merges, stream_time
+from mergecheck.gap_acceptance import (
+    CriticalGap,
+    MergeSetting,
+    Renewal,
+    merge_reliabilities,
+    merge_reliability,
+    not_merged,
+    simulate_merges,
+    stream_time,
+)
 from mergecheck.headways import CowanM3, Exponential
 from mergecheck.site import load_site
 
@@ -156,3 +165,59 @@ def test_longer_lane_gives_higher_merge_probability(repo: Path, tmp_path: Path) 
         car = assess(load_site(str(site_file))).vehicles[0]
         probabilities.append(car.merge.by_lane_end)
     assert all(b > a for a, b in itertools.pairwise(probabilities))
+
+
+def test_fourier_solution_equals_the_direct_recursion() -> None:
+    """The damped-FFT solution of the discrete renewal equation (Eqs. 2-3 on the cell grid) equals the
+    same equations stepped directly in time, cell by cell. Random arrivals (scipy.stats.expon survival),
+    q = 0.3 veh/s, a consistent driver T = 4 s, dt = 0.05 s; agreement to 1e-8."""
+    q, t_c, dt = 0.3, 4.0, 0.05
+    survival = stats.expon(scale=1 / q).sf
+    cells = math.ceil(t_c / dt + 0.5) + 1
+    lower = np.maximum((np.arange(cells) - 0.5) * dt, 0.0)
+    upper = np.minimum((np.arange(cells) + 0.5) * dt, t_c)
+    r = np.where(lower < t_c, survival(lower) - survival(upper), 0.0)
+    start = np.arange(cells) * dt
+    end = np.maximum(np.minimum(start + dt, t_c), start)
+    w = np.concatenate([[0.0], ((survival(start) - survival(end)) / q - survival(t_c) * (end - start)) * q])
+    n = 600
+    u = np.zeros(n)
+    for i in range(n):
+        drive = r[i + 1 :].sum()
+        u[i] = (drive + sum(r[j] * u[i - j] for j in range(1, min(i, cells - 1) + 1))) / (1.0 - r[0])
+    p_not = np.array([sum(w[m] * u[i - m] for m in range(min(i, w.size - 1) + 1)) + w[i + 1 :].sum() for i in range(n)])
+    tau = np.arange(n, dtype=np.float64) * dt
+    assert np.allclose(not_merged(Exponential(q), CriticalGap(t_c, 0.0), tau, step=dt), p_not, rtol=0, atol=1e-8)
+
+
+def test_one_solution_serves_several_critical_gaps() -> None:
+    """Solving two drivers' distributions on one stream together gives each its own solution (to 1e-8)."""
+    stream = CowanM3.tanner(1300 / 3600, 1.0)
+    truck = CriticalGap(4.0, 1.0)
+    together = Renewal(stream, [CAR, truck], 25.0)
+    for which, gap in enumerate([CAR, truck]):
+        alone = Renewal(stream, [gap], 12.0)
+        tau = np.linspace(0.0, 12.0, 49)
+        assert np.allclose(together.not_merged(tau, which), alone.not_merged(tau), rtol=0, atol=1e-8)
+
+
+def test_many_vehicles_at_once_equal_one_at_a_time() -> None:
+    """Merge reliability for several vehicles in one pass (issue 6) equals each vehicle alone: different
+    streams, an empty adjacent lane, a vehicle that never reaches the minimum merge speed."""
+    x = np.arange(0.0, 800.0, 5.0)
+    cases = [
+        (np.minimum(15.0 + 0.03 * x, 27.0), CowanM3.tanner(1200 / 3600, 1.0), CAR),
+        (np.minimum(12.0 + 0.02 * x, 24.0), Exponential(900 / 3600), CriticalGap(4.0, 1.0)),
+        (np.minimum(14.0 + 0.04 * x, 26.0), None, CAR),
+        (np.full_like(x, 12.0), CowanM3.tanner(1500 / 3600, 1.0), CAR),
+    ]
+    common = dict(convergence=100.0, lane_end=350.0, taper_end=440.0, stream_speed=28.0, merge_speed=26.0,
+                  minimum_merge_speed=20.0, search_speed=4.0, stop_critical_gap=CriticalGap(8.0, 1.5),
+                  reliability=0.95, flow=300 / 3600, search_length=1500.0)  # fmt: skip
+    settings = [MergeSetting(headways=h, critical_gap=g, **common) for _, h, g in cases]  # type: ignore[arg-type]
+    together = merge_reliabilities([x] * len(cases), [v for v, _, _ in cases], settings)
+    for (speed, headways, gap), joint in zip(cases, together, strict=True):
+        alone = merge_reliability(x, speed, headways=headways, critical_gap=gap, **common)  # type: ignore[arg-type]
+        for field in ("by_lane_end", "by_taper_end", "length_for_reliability", "eligible_station", "stops_per_h"):
+            a, b = getattr(joint, field), getattr(alone, field)
+            assert (a is None and b is None) or a == pytest.approx(b, rel=1e-9, abs=1e-12), field

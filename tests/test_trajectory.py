@@ -2,7 +2,9 @@
 
 from __future__ import annotations
 
+import itertools
 import math
+from pathlib import Path
 
 import numpy as np
 import pytest
@@ -10,7 +12,7 @@ from scipy.integrate import solve_ivp
 
 from mergecheck.acceleration import LinearDecreasing, PowerLimited, Tabulated
 from mergecheck.profile import GradeChange, VerticalProfile
-from mergecheck.trajectory import accelerate, equilibrium_speed
+from mergecheck.trajectory import Run, accelerate, accelerate_many, equilibrium_speed
 from mergecheck.vehicles import load_vehicle
 
 LEVEL = VerticalProfile.constant(0.0)
@@ -116,3 +118,45 @@ def test_equilibrium_speed_is_the_same_from_below_and_above(from_speed: float) -
     assert reference is not None
     assert equilibrium_speed(truck, 0.05, 0.0, from_speed) == pytest.approx(reference, rel=1e-9)
     assert float(truck.acceleration(reference, 0.05)) == pytest.approx(0.0, abs=1e-9)
+
+
+def test_many_at_once_equal_one_at_a_time(repo: Path) -> None:
+    """Integrating vehicles side by side (issue 6) changes nothing: every vehicle's results equal its own
+    integration. Mixed families (linear-decreasing car with capability, power-limited trucks, a tabulated
+    profile), standing and rolling starts, vertical curves and abrupt grade changes, elevations."""
+    models = [load_vehicle(v).model for v in ("passenger-car", "semitrailer-design", "bus", "single-unit-truck")]
+    models.append(load_vehicle(str(repo / "examples" / "vehicle-grain-truck.yaml")).model)
+    profiles = [
+        LEVEL,
+        VerticalProfile(0.04),
+        VerticalProfile(-0.02, (GradeChange(150.0, 0.05, 120.0), GradeChange(700.0, 0.0, 0.0))),
+        VerticalProfile(0.03, (GradeChange(90.0, -0.01, 0.0),)),
+    ]
+    runs = [
+        Run(model, profile, v0, v1, through=900.0, elevation=elevation)
+        for (model, profile), (v0, v1, elevation) in itertools.product(
+            itertools.product(models, profiles), [(0.0, 22.0, 0.0), (14.0, 26.0, 1500.0)]
+        )
+    ]
+    together = accelerate_many(runs)
+    stations = np.linspace(0.0, 900.0, 181)
+    for run, joint in zip(runs, together, strict=True):
+        alone = accelerate(
+            run.model, run.profile, run.initial_speed, run.target_speed, through=run.through, elevation=run.elevation
+        )
+        assert joint.target_station == alone.target_station
+        assert joint.crawl_speed == alone.crawl_speed and joint.end == alone.end
+        inside = stations[stations <= alone.end]
+        assert np.allclose(joint.speed_at(inside), alone.speed_at(inside), rtol=1e-12, atol=0.0)
+        assert np.allclose(joint.time_at(inside), alone.time_at(inside), rtol=1e-12, atol=0.0)
+
+
+def test_speed_between_steps_is_the_continuous_extension() -> None:
+    """Between integration steps the speed is read on the integrator's own 4th-order extension, not by
+    linear interpolation: against the closed form of the linear-decreasing model (Long 2000) at stations
+    that are not sample points, relative error below 1e-6."""
+    alpha, beta = 1.05, 0.028
+    run = accelerate(LinearDecreasing(alpha, beta, 0.5), LEVEL, 6.3, 30.0)
+    speeds = np.linspace(7.0, 29.5, 40)
+    x = ((6.3 - speeds) + alpha / beta * np.log((alpha - beta * 6.3) / (alpha - beta * speeds))) / beta
+    assert np.allclose(run.speed_at(x), speeds, rtol=1e-6)

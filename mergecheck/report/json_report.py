@@ -24,6 +24,7 @@ def _number(value: float | None, digits: int = 6) -> float | None:
 def acceleration_json(run: AccelerationRun) -> dict[str, Any]:
     """The ``accel --json`` document."""
     trajectory = run.trajectory
+    station, speed, time = trajectory.samples()
     return {
         "vehicle": run.vehicle.id,
         "vehicle_name": run.vehicle.name,
@@ -37,10 +38,10 @@ def acceleration_json(run: AccelerationRun) -> dict[str, Any]:
         "stalled": trajectory.stalled,
         "elevation_m": _number(run.elevation, 3),
         "trajectory": {
-            "station_m": [round(float(x), 3) for x in trajectory.station],
-            "speed_m_s": [round(float(v), 5) for v in trajectory.speed],
-            "time_s": [round(float(t), 4) for t in trajectory.time],
-            "grade": [round(float(g), 6) for g in run.profile.grade(trajectory.station)],
+            "station_m": [round(float(x), 3) for x in station],
+            "speed_m_s": [round(float(v), 5) for v in speed],
+            "time_s": [round(float(t), 4) for t in time],
+            "grade": [round(float(g), 6) for g in run.profile.grade(station)],
         },
         "cautions": list(CAUTIONS),
     }

@@ -35,7 +35,7 @@ def acceleration_view(run: AccelerationRun, system: UnitSystem) -> RenderableTyp
     """Key figures, then station, grade, speed and time at regular intervals."""
     trajectory = run.trajectory
     vehicle = run.vehicle
-    start, end = float(trajectory.station[0]), float(trajectory.station[-1])
+    start, end = trajectory.start, trajectory.end
     if trajectory.reaches_target:
         verdict = Text(
             f"Reaches {show(trajectory.target_speed, 'speed', system)} after "
