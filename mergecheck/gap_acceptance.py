@@ -193,8 +193,9 @@ def _stream_times(
     return np.asarray(np.where(past, tau - tau[rows, first][:, None] + partial[:, None], 0.0), dtype=float)
 
 
+@dataclass(frozen=True, slots=True)
 class Renewal:
-    """Eqs. (2)-(3) on a grid in tau, solved for every critical-gap node at once.
+    """Eqs. (2)-(3) solved on a grid in tau for the critical-gap distributions of one stream.
 
     Cell j of the grid holds headways in [(j - 1/2) dt, (j + 1/2) dt), placed
     at j dt. For a node t_c, Eq. (2) becomes the discrete renewal equation
@@ -209,62 +210,22 @@ class Renewal:
     so that P_not,i = (w * U)_i + sum_{m > i} w_m.
 
     Both convolutions are solved by the discrete Fourier transform,
-    U^ = d^ / (1 - r^), P^ = w^ U^, mixed over the nodes before the one
-    inverse transform. Circular wrap-around is suppressed by an exponential
-    window: every sequence is multiplied by rho^i with rho^N = 1e-10 (N the
-    transform length, at least 1.25 times the cells solved), which the
-    recursion tolerates unchanged, and divided out after; wrap-around then
-    weighs at most 1e-10 and rounding is magnified at most 1e8-fold (errors
-    near 1e-8) (the damped inversion of
-    generating functions: Abate and Whitt 1992, "Numerical inversion of
-    probability generating functions", Operations Research Letters 12(4),
-    245-251, from memory).
-
-    Parameters
-    ----------
-    headways
-        Headway model of the adjacent lane.
-    critical_gap
-        Distribution of t_c across drivers.
-    reach
-        Largest stream time to solve for. [s]
-    step
-        Grid step in tau; default min(0.05 s, mean headway / 40). [s]
+    U^ = d^ / (1 - r^), P^ = w^ U^, mixed over each distribution's nodes
+    before the inverse transform, for many nodes and streams in one call.
+    Circular wrap-around is suppressed by an exponential window: every
+    sequence is multiplied by rho^i with rho^N = 1e-10 (N the transform
+    length, at least 1.25 times the cells solved), which the recursion
+    tolerates unchanged, and divided out after; wrap-around then weighs at
+    most 1e-10 and rounding is magnified at most 1e8-fold (errors near 1e-8)
+    (the damped inversion of generating functions: Abate and Whitt 1992,
+    "Numerical inversion of probability generating functions", Operations
+    Research Letters 12(4), 245-251, from memory).
     """
 
-    def __init__(
-        self, headways: HeadwayModel, critical_gaps: Sequence[CriticalGap], reach: float, step: float | None = None
-    ) -> None:
-        nodes = [gap.nodes() for gap in critical_gaps]
-        gaps = np.concatenate([g for g, _ in nodes])
-        weights = np.concatenate([w for _, w in nodes])
-        starts = np.cumsum([0] + [g.size for g, _ in nodes[:-1]])  # each distribution's first node
-        mu = headways.mean()
-        dt = self.step = step or min(0.05, mu / 40.0)
-        cells = math.ceil(max(reach, dt) / dt) + 1
-        width = math.ceil(float(gaps.max()) / dt + 0.5) + 1  # cells reaching the largest t_c, and one more
-        lower = np.maximum((np.arange(width) - 0.5) * dt, 0.0)
-        upper = np.minimum((np.arange(width) + 0.5) * dt, gaps[:, None])  # (K, J): cell cut at t_c
-        rejected = np.where(lower < gaps[:, None], headways.survival(lower) - headways.survival(upper), 0.0)
-        rejected = np.maximum(rejected, 0.0)
-        start = np.arange(width) * dt
-        end = np.maximum(np.minimum(start + dt, gaps[:, None]), start)
-        area = headways.survival_integral(end) - headways.survival_integral(start)
-        w = np.clip(area - headways.survival(gaps)[:, None] * (end - start), 0.0, None) / mu
-        size = next_fast_len(max(math.ceil(1.25 * cells), width + 2), real=True)
-        window = _window(size)
-        sequences = np.zeros((3, gaps.size, size))
-        sequences[0, :, :width] = rejected * window[:width]
-        sequences[1, :, : width - 1] = np.cumsum(rejected[:, ::-1], axis=1)[:, ::-1][:, 1:] * window[: width - 1]
-        sequences[2, :, 1 : width + 1] = w * window[1 : width + 1]  # placed at index i + 1
-        r, d, first = rfft(sequences, axis=-1)
-        spectra = np.add.reduceat(weights[:, None] * (first * d / (1.0 - r)), starts, axis=0)  # mixed per distribution
-        mixed = irfft(spectra, n=size, axis=-1)[:, :cells] / window[:cells]
-        passing = np.cumsum(w[:, ::-1], axis=1)[:, ::-1]  # residual still passing at cell i: sum of w beyond i
-        reach_first = min(cells, width)
-        mixed[:, :reach_first] += np.add.reduceat(weights[:, None] * passing, starts, axis=0)[:, :reach_first]
-        self.values: FloatArray = np.clip(mixed, 0.0, 1.0)
-        """Mixed P_not at each cell, one row per critical-gap distribution."""
+    step: float
+    """Grid step dt. [s]"""
+    values: FloatArray
+    """Mixed P_not at each cell, one row per critical-gap distribution."""
 
     @property
     def reach(self) -> float:
@@ -277,6 +238,79 @@ class Renewal:
         return np.asarray(np.interp(tau, cells, self.values[which]), dtype=float)
 
 
+@dataclass(frozen=True, slots=True)
+class _CellMasses:
+    """The sequences of :class:`Renewal` for one stream: every node of every distribution asked for."""
+
+    step: float
+    cells: int
+    rejected: FloatArray
+    """(K, J) r_j per node."""
+    first_gap: FloatArray
+    """(K, J) w_{j+1} per node."""
+    weights: FloatArray
+    """(K,) quadrature weight of each node within its distribution."""
+    nodes: tuple[int, ...]
+    """How many nodes each distribution has (consecutive rows)."""
+
+
+def _cell_masses(
+    headways: HeadwayModel, critical_gaps: Sequence[CriticalGap], reach: float, step: float | None = None
+) -> _CellMasses:
+    nodes = [gap.nodes() for gap in critical_gaps]
+    gaps = np.concatenate([g for g, _ in nodes])
+    mu = headways.mean()
+    dt = step or min(0.05, mu / 40.0)
+    width = math.ceil(float(gaps.max()) / dt + 0.5) + 1  # cells reaching the largest t_c, and one more
+    lower = np.maximum((np.arange(width) - 0.5) * dt, 0.0)
+    upper = np.minimum((np.arange(width) + 0.5) * dt, gaps[:, None])  # (K, J): cell cut at t_c
+    rejected = np.where(lower < gaps[:, None], headways.survival(lower) - headways.survival(upper), 0.0)
+    start = np.arange(width) * dt
+    end = np.maximum(np.minimum(start + dt, gaps[:, None]), start)
+    area = headways.survival_integral(end) - headways.survival_integral(start)
+    w = np.clip(area - headways.survival(gaps)[:, None] * (end - start), 0.0, None) / mu
+    return _CellMasses(
+        step=dt,
+        cells=math.ceil(max(reach, dt) / dt) + 1,
+        rejected=np.maximum(rejected, 0.0),
+        first_gap=w,
+        weights=np.concatenate([w for _, w in nodes]),
+        nodes=tuple(g.size for g, _ in nodes),
+    )
+
+
+def _solve(streams: Sequence[_CellMasses]) -> list[Renewal]:
+    """The damped-FFT solution (:class:`Renewal`) for several streams in one transform."""
+    width = max(s.rejected.shape[1] for s in streams)
+    size = next_fast_len(max(max(math.ceil(1.25 * s.cells), s.rejected.shape[1] + 2) for s in streams), real=True)
+    window = _window(size)
+    rows = sum(s.rejected.shape[0] for s in streams)
+    sequences = np.zeros((3, rows, size))
+    first_gap = np.zeros((rows, width))
+    row = 0
+    for s in streams:
+        k, j = s.rejected.shape
+        sequences[0, row : row + k, :j] = s.rejected * window[:j]
+        tail = np.cumsum(s.rejected[:, ::-1], axis=1)[:, ::-1]  # sum over cells >= index
+        sequences[1, row : row + k, : j - 1] = tail[:, 1:] * window[: j - 1]
+        sequences[2, row : row + k, 1 : j + 1] = s.first_gap * window[1 : j + 1]  # placed at index i + 1
+        first_gap[row : row + k, :j] = s.first_gap
+        row += k
+    weights = np.concatenate([s.weights for s in streams])[:, None]
+    bounds = np.cumsum([0] + [n for s in streams for n in s.nodes])[:-1]  # first row of each distribution
+    r, d, first = rfft(sequences, axis=-1)
+    mixed = irfft(np.add.reduceat(weights * (first * d / (1.0 - r)), bounds, axis=0), n=size, axis=-1) / window
+    passing = np.cumsum(first_gap[:, ::-1], axis=1)[:, ::-1]  # residual still passing at cell i: sum of w beyond i
+    mixed[:, :width] += np.add.reduceat(weights * passing, bounds, axis=0)
+    solutions, at = [], 0
+    for s in streams:
+        values = np.clip(mixed[at : at + len(s.nodes), : s.cells], 0.0, 1.0)
+        values.flags.writeable = False
+        solutions.append(Renewal(s.step, values))
+        at += len(s.nodes)
+    return solutions
+
+
 @functools.lru_cache(maxsize=64)
 def _window(size: int) -> FloatArray:
     """rho^i with rho^size = 1e-10 (Renewal)."""
@@ -285,21 +319,35 @@ def _window(size: int) -> FloatArray:
     return window
 
 
+_BATCH_CELLS = 200_000
+"""Node rows times transform length solved in one call, at most (memory)."""
+
+
 def solve_renewals(
     requests: Sequence[tuple[HeadwayModel, CriticalGap, float]],
 ) -> list[tuple[Renewal, int]]:
-    """Solve (headways, critical gap, reach) requests, one :class:`Renewal` per stream shared by its requests.
+    """Solve (headways, critical gap, reach) requests: one :class:`Renewal` per stream, shared by its requests.
 
     The vehicles of a site share a stream and often a critical gap; one solution serves them all,
-    as far as the farthest reach asked of it. Returns, per request, its solution and row.
+    as far as the farthest reach asked of it. Streams of similar length are transformed together.
+    Returns, per request, its solution and row.
     """
     streams: dict[HeadwayModel, dict[CriticalGap, None]] = {}
     reach: dict[HeadwayModel, float] = {}
     for headways, gap, needed in requests:
         streams.setdefault(headways, {})[gap] = None
         reach[headways] = max(reach.get(headways, 0.0), needed)
-    solved = {h: (Renewal(h, list(gaps), reach[h]), list(gaps)) for h, gaps in streams.items()}
-    return [(solved[h][0], solved[h][1].index(gap)) for h, gap, _ in requests]
+    masses = {h: _cell_masses(h, list(gaps), reach[h]) for h, gaps in streams.items()}
+    order = sorted(masses, key=lambda h: masses[h].cells)
+    solved: dict[HeadwayModel, Renewal] = {}
+    while order:
+        batch = [order.pop(0)]
+        while (
+            order and (len(batch) + 1) * masses[order[0]].rejected.shape[0] * 2 * masses[order[0]].cells < _BATCH_CELLS
+        ):
+            batch.append(order.pop(0))
+        solved |= dict(zip(batch, _solve([masses[h] for h in batch]), strict=True))
+    return [(solved[h], list(streams[h]).index(gap)) for h, gap, _ in requests]
 
 
 @functools.lru_cache(maxsize=64)
@@ -326,7 +374,7 @@ def not_merged(
         Grid step in tau; default min(0.05 s, mean headway / 40). [s]
     """
     tau = np.asarray(tau, dtype=float)
-    return Renewal(headways, [critical_gap], float(tau.max(initial=0.0)), step).not_merged(tau)
+    return _solve([_cell_masses(headways, [critical_gap], float(tau.max(initial=0.0)), step)])[0].not_merged(tau)
 
 
 def simulate_merges(

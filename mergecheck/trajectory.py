@@ -58,7 +58,7 @@ IndexArray = NDArray[np.intp]
 _START_STEP = 0.01  # m: length of the constant-acceleration first step from rest
 _STALL_SPEED = 0.05  # m/s: below this a decelerating vehicle is taken as stopped
 _SCAN_SPEED_MAX = 80.0  # m/s: equilibrium speeds are searched up to this
-_SCAN_POINTS = 401  # 0.2 m/s apart
+_SCAN_POINTS = 161  # 0.5 m/s apart
 _RECHECK = 500.0  # m: the crawl speed is found again after this much climbing (the air thins)
 _SETTLED = 0.02  # relative closeness to the crawl speed at which integration stops
 _TOLERANCE = np.array([[1e-8], [1e-9]])  # relative and absolute: on u [m^2/s^2], on t [s]
@@ -211,7 +211,7 @@ def equilibrium_speeds(
     From ``from_speed`` a vehicle accelerates (a > 0) up to the first speed
     above it where a(v) falls through zero, or decelerates (a < 0) down to the
     highest speed below it where a(v) falls through zero; 0 when it cannot
-    hold any speed. The crossing is bracketed on a 0.2 m/s grid and refined
+    hold any speed. The crossing is bracketed on a 0.5 m/s grid and refined
     by bisection to machine precision (crossings closer than that are not told apart).
     """
     grid = np.linspace(0.0, _SCAN_SPEED_MAX, _SCAN_POINTS)
@@ -227,7 +227,7 @@ def equilibrium_speeds(
     j = np.where(rising, first_ahead, last_behind)
     low = np.where(rising, np.maximum(from_speed, grid[j]), grid[j])
     high = np.where(rising, grid[j + 1], np.minimum(from_speed, grid[j + 1]))
-    for _ in range(48):  # a(low) > 0 >= a(high) throughout; 0.2 m/s / 2^48 is below rounding
+    for _ in range(48):  # a(low) > 0 >= a(high) throughout; 0.5 m/s / 2^48 is below rounding
         middle = 0.5 * (low + high)
         positive = models.acceleration(middle, grade, elevation) > 0
         low, high = np.where(positive, middle, low), np.where(positive, high, middle)

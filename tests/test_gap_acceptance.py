@@ -14,11 +14,11 @@ from mergecheck.assessment import assess
 from mergecheck.gap_acceptance import (
     CriticalGap,
     MergeSetting,
-    Renewal,
     merge_reliabilities,
     merge_reliability,
     not_merged,
     simulate_merges,
+    solve_renewals,
     stream_time,
 )
 from mergecheck.headways import CowanM3, Exponential
@@ -191,14 +191,16 @@ def test_fourier_solution_equals_the_direct_recursion() -> None:
 
 
 def test_one_solution_serves_several_critical_gaps() -> None:
-    """Solving two drivers' distributions on one stream together gives each its own solution (to 1e-8)."""
+    """Solving several drivers' distributions and streams together gives each its own solution (to 1e-8)."""
     stream = CowanM3.tanner(1300 / 3600, 1.0)
     truck = CriticalGap(4.0, 1.0)
-    together = Renewal(stream, [CAR, truck], 25.0)
-    for which, gap in enumerate([CAR, truck]):
-        alone = Renewal(stream, [gap], 12.0)
-        tau = np.linspace(0.0, 12.0, 49)
-        assert np.allclose(together.not_merged(tau, which), alone.not_merged(tau), rtol=0, atol=1e-8)
+    other = Exponential(900 / 3600)
+    together = solve_renewals([(stream, CAR, 25.0), (stream, truck, 10.0), (other, CAR, 40.0)])
+    assert together[0][0] is together[1][0]  # one solution for the stream, to the farthest reach
+    tau = np.linspace(0.0, 12.0, 49)
+    for (renewal, which), (headways, gap) in zip(together, [(stream, CAR), (stream, truck), (other, CAR)], strict=True):
+        alone = not_merged(headways, gap, tau)
+        assert np.allclose(renewal.not_merged(tau, which), alone, rtol=0, atol=1e-8)
 
 
 def test_many_vehicles_at_once_equal_one_at_a_time() -> None:
