@@ -2,8 +2,9 @@
 
 Run: ``python benchmarks/batch.py [--sites N] [--workers W]`` (prints figures; not a test). The
 target is 10,000 generated sites; each has three design vehicles, the speed check and the analytic
-merge reliability. Sites arrive validated (as from a file already read); the time counts turning
-them into sites, the assessment and, in the batch, bringing results back from the workers.
+merge reliability. Sites arrive loaded (as from files already parsed); the time counts their
+validation, turning them into sites, the assessment and, in the batch, bringing results back from
+the workers.
 """
 
 from __future__ import annotations
@@ -14,7 +15,6 @@ import time
 import numpy as np
 
 from mergecheck.batch import SiteEntry, assess_all, assess_entry
-from mergecheck.site import SiteInput
 
 
 def generated(count: int, seed: int = 7) -> list[SiteEntry]:
@@ -44,7 +44,7 @@ def generated(count: int, seed: int = 7) -> list[SiteEntry]:
                 "profile": [{"from": "0 m", "grade": f"{rng.uniform(-3, 5):.1f} %"}],
             },
         }
-        entries.append(SiteEntry(f"generated {i}", SiteInput.model_validate(site), None))
+        entries.append(SiteEntry.given(f"generated {i}", site))
     return entries
 
 
@@ -64,7 +64,9 @@ def main() -> None:
     for entry in sample:
         assess_entry(entry)
     single = (time.perf_counter() - start) / len(sample)
-    print(f"batch ({args.workers or 'all'} cores): {count} sites in {batch:.1f} s, {count / batch:.1f} sites per second")
+    print(
+        f"batch ({args.workers or 'all'} cores): {count} sites in {batch:.1f} s, {count / batch:.1f} sites per second"
+    )
     print(f"per-site path (one core): {1 / single:.1f} sites per second ({len(sample)} sites timed)")
 
 

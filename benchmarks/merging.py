@@ -25,7 +25,10 @@ def main() -> None:
             not_merged(stream, GAP, TAU)
     elapsed = time.perf_counter() - start
     evaluations = rounds * len(STREAMS)
-    print(f"analytic: {evaluations} merge-probability curves (24-node critical-gap quadrature, 30 s of stream time)")
+    nodes = GAP.nodes()[0].size
+    print(
+        f"analytic: {evaluations} merge-probability curves ({nodes}-node critical-gap quadrature, 30 s of stream time)"
+    )
     print(f"  {elapsed:.2f} s, {evaluations / elapsed:.1f} curves per second")
 
     count = 100_000

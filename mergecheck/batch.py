@@ -61,12 +61,21 @@ CHUNK = 500
 
 @dataclass(frozen=True, slots=True)
 class SiteEntry:
-    """One site of a batch as read: its validated input, or why it could not be read."""
+    """One site of a batch: where it comes from and how to load it (read by the worker that assesses it)."""
 
     label: str
     """File, file and list index, or file and CSV row."""
-    data: SiteInput | None
-    error: str | None
+    load: Callable[[], Any]
+    """Returns the site as loaded (a mapping of fields) or raises InputError."""
+
+    @classmethod
+    def given(cls, label: str, site: Any) -> SiteEntry:
+        """An entry for a site already loaded (e.g. one item of a YAML list)."""
+        return cls(label, partial(_given, site))
+
+    def read(self) -> SiteInput:
+        """The validated site input; InputError names the entry, the field and the rule."""
+        return validated(self.load(), SiteInput, self.label, "a site")
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -83,26 +92,18 @@ def read_entries(path: str) -> list[SiteEntry]:
         files = sorted(p for p in source.iterdir() if p.suffix in (".yaml", ".yml"))
         if not files:
             raise InputError(path, "", "the folder holds no .yaml site files")
-        return [_entry(str(f), partial(read_yaml, str(f))) for f in files]
+        return [SiteEntry(str(f), partial(read_yaml, str(f))) for f in files]
     if source.suffix.lower() == ".csv":
         return list(_csv_entries(path))
     raw = read_yaml(path)
     sites = raw.get("sites") if isinstance(raw, dict) else raw
     if not isinstance(sites, list) or not sites:
         raise InputError(path, "sites", "a batch file is a list of sites, or a mapping with a 'sites' list")
-    return [_entry(f"{path}: sites.{i}", partial(_given, site)) for i, site in enumerate(sites)]
+    return [SiteEntry.given(f"{path}: sites.{i}", site) for i, site in enumerate(sites)]
 
 
 def _given(value: Any) -> Any:
     return value
-
-
-def _entry(label: str, raw: Callable[[], Any]) -> SiteEntry:
-    """Read and validate one site; a rule it breaks becomes the entry's error."""
-    try:
-        return SiteEntry(label, validated(raw(), SiteInput, label, "a site"), None)
-    except InputError as error:
-        return SiteEntry(label, None, str(error))
 
 
 def _csv_entries(path: str) -> Iterator[SiteEntry]:
@@ -113,7 +114,7 @@ def _csv_entries(path: str) -> Iterator[SiteEntry]:
     lines = [line for line in text.splitlines() if not line.lstrip().startswith("#")]
     for index, row in enumerate(csv.DictReader(lines), start=2):
         label = f"{path}: row {index}"
-        yield _entry(label, partial(csv_row_to_site, row, label))
+        yield SiteEntry(label, partial(csv_row_to_site, row, label))
 
 
 def csv_row_to_site(row: dict[str, str | None], label: str) -> dict[str, Any]:
@@ -191,16 +192,15 @@ def csv_row_to_site(row: dict[str, str | None], label: str) -> dict[str, Any]:
 
 def assess_entry(entry: SiteEntry) -> BatchResult:
     """The single-site path for one entry (full assessment, curves kept); errors become the row's reason."""
-    if entry.data is None:
-        return BatchResult(label=entry.label, assessment=None, error=entry.error)
     try:
-        return BatchResult(label=entry.label, assessment=assess(site_from_input(entry.data, entry.label)), error=None)
+        return BatchResult(label=entry.label, assessment=assess(site_from_input(entry.read(), entry.label)), error=None)
     except InputError as error:
         return BatchResult(label=entry.label, assessment=None, error=str(error))
 
 
 def assess_chunk(entries: list[SiteEntry]) -> list[BatchResult]:
-    """Assess a run of entries together (:func:`mergecheck.assessment.assess_many`), keeping the figures only.
+    """Read a run of entries and assess them together (:func:`mergecheck.assessment.assess_many`), keeping the
+    figures only.
 
     Each site's figures equal the single-site path's: the vehicles of all
     sites are integrated side by side, each independently of the others.
@@ -209,11 +209,8 @@ def assess_chunk(entries: list[SiteEntry]) -> list[BatchResult]:
     readable: list[tuple[int, Site]] = []
     policies: dict[str | None, str | None] = {}  # policy file -> why it cannot be read (None: readable)
     for i, entry in enumerate(entries):
-        if entry.data is None:
-            results[i] = BatchResult(label=entry.label, assessment=None, error=entry.error)
-            continue
         try:
-            site = site_from_input(entry.data, entry.label)
+            site = site_from_input(entry.read(), entry.label)
             if site.policy_file != "none":
                 if site.policy_file not in policies:
                     policies[site.policy_file] = _policy_problem(site.policy_file)

@@ -16,7 +16,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from .acceleration import PowerLimited
-from .assessment import SiteAssessment, assess
+from .assessment import SiteAssessment, assess_many
 from .errors import InputError
 from .profile import VerticalProfile
 from .site import Site, SiteVehicle
@@ -92,17 +92,14 @@ def _with_weight_to_power(entry: SiteVehicle, weight_to_power: float) -> SiteVeh
 
 
 def sweep(site: Site, field: str, values: np.ndarray) -> Sweep:
-    """Assess the site at each value of the field."""
-    points: list[SweepPoint] = []
-    previous = None
-    for value in values:
-        result = assess(varied(site, field, float(value)))
-        points.append(
-            SweepPoint(
-                value=float(value),
-                assessment=result,
-                verdict_changes=previous is not None and result.verdict != previous,
-            )
+    """Assess the site at each value of the field (all points in one pass, each as a single check)."""
+    results = assess_many([varied(site, field, float(value)) for value in values])
+    points = tuple(
+        SweepPoint(
+            value=float(value),
+            assessment=result,
+            verdict_changes=i > 0 and result.verdict != results[i - 1].verdict,
         )
-        previous = result.verdict
-    return Sweep(field=field, kind=FIELDS[field], points=tuple(points))
+        for i, (value, result) in enumerate(zip(values, results, strict=True))
+    )
+    return Sweep(field=field, kind=FIELDS[field], points=points)

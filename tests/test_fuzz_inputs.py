@@ -85,11 +85,14 @@ def test_parse_quantity_never_raises_anything_else(text: str, kind: str) -> None
                                               "curve_end_to_convergence_m"]),
                              st.text(max_size=10), max_size=12))  # fmt: skip
 def test_csv_rows_never_raise_anything_else(cells: dict[str, str]) -> None:
-    from mergecheck.batch import _entry, csv_row_to_site
+    from mergecheck.batch import SiteEntry, csv_row_to_site
 
     row: dict[str, str | None] = dict(cells)
-    entry = _entry("fuzz.csv: row 2", lambda: csv_row_to_site(row, "fuzz.csv: row 2"))
-    assert (entry.data is None) == (entry.error is not None)
+    entry = SiteEntry("fuzz.csv: row 2", lambda: csv_row_to_site(row, "fuzz.csv: row 2"))
+    try:
+        entry.read()
+    except InputError as error:
+        assert str(error).startswith("fuzz.csv: row 2")
 
 
 VEHICLE = yaml.safe_load((Path(__file__).parent.parent / "vehicle_profiles" / "passenger-car.yaml").read_text())
