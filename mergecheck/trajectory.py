@@ -433,11 +433,17 @@ class _State:
         scale = _TOLERANCE + _TOLERANCE * np.maximum(np.abs(y), np.abs(y_new))
         norm = np.sqrt(np.mean((h * np.einsum("s,s...->...", _E, k) / scale) ** 2, axis=0))
         accept = norm < 1.0
+        failed = ~np.isfinite(norm) | (h < 1e-12)  # a model returning nonsense: stop that vehicle where it is
+        if failed.any():
+            self.done[live[failed]] = True
+            accept &= ~failed
         factor = np.where(norm == 0.0, _MAX_FACTOR, _SAFETY * np.maximum(norm, 1e-300) ** -0.2)
         grow = np.where(self.rejected[live], np.minimum(factor, 1.0), np.minimum(factor, _MAX_FACTOR))
         self.h[live] = np.where(accept, h * grow, h * np.maximum(factor, _MIN_FACTOR))
         self.rejected[live] = ~accept
         if not accept.any():
+            if failed.any():
+                self._update_live()
             return
         taken = np.flatnonzero(accept)
         cols = live[taken]
@@ -464,7 +470,7 @@ class _State:
         finished = self.stalled[cols] | (end >= self.end_limit[cols] - 1e-9)
         finished |= self.reached[cols] & (end >= self.through[cols] - 1e-9)
         finished |= self._settled(cols, end, np.sqrt(2.0 * np.maximum(y1[0], 0.0)), finished)
-        if finished.any():
+        if finished.any() or failed.any():
             self.done[cols[finished]] = True
             self._update_live()
 
