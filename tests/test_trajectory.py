@@ -160,3 +160,18 @@ def test_speed_between_steps_is_the_continuous_extension() -> None:
     speeds = np.linspace(7.0, 29.5, 40)
     x = ((6.3 - speeds) + alpha / beta * np.log((alpha - beta * 6.3) / (alpha - beta * speeds))) / beta
     assert np.allclose(run.speed_at(x), speeds, rtol=1e-6)
+
+
+class _Broken:
+    """A user model that returns nonsense above 10 m/s (not a dataclass: stacked as an object)."""
+
+    def acceleration(self, speed: object, grade: object, elevation: object = 0.0) -> np.ndarray:
+        v = np.asarray(speed, dtype=float)
+        return np.where(v > 10.0, np.nan, 1.0)
+
+
+def test_a_model_returning_nonsense_stops_instead_of_looping() -> None:
+    """The integrator ends a vehicle whose model returns non-finite values, short of its target."""
+    run = accelerate(_Broken(), LEVEL, 5.0, 20.0)
+    assert not run.reaches_target
+    assert run.end < 100.0 and float(run.speed_at(run.end)) <= 10.0 + 1e-6
