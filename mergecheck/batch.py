@@ -37,10 +37,11 @@ merge_speed_differential_kmh / _mph       criteria.merge_speed_differential (opt
 from __future__ import annotations
 
 import csv
+import gc
 import os
 from collections.abc import Callable, Iterator
 from concurrent.futures import ProcessPoolExecutor
-from contextlib import nullcontext
+from contextlib import contextmanager, nullcontext
 from dataclasses import dataclass
 from functools import partial
 from pathlib import Path
@@ -205,6 +206,11 @@ def assess_chunk(entries: list[SiteEntry]) -> list[BatchResult]:
     Each site's figures equal the single-site path's: the vehicles of all
     sites are integrated side by side, each independently of the others.
     """
+    with _bulk():
+        return _assess_chunk(entries)
+
+
+def _assess_chunk(entries: list[SiteEntry]) -> list[BatchResult]:
     results: list[BatchResult | None] = [None] * len(entries)
     readable: list[tuple[int, Site]] = []
     policies: dict[str | None, str | None] = {}  # policy file -> why it cannot be read (None: readable)
@@ -223,6 +229,21 @@ def assess_chunk(entries: list[SiteEntry]) -> list[BatchResult]:
     for (i, _), assessment in zip(readable, assessments, strict=True):
         results[i] = BatchResult(label=entries[i].label, assessment=assessment.figures_only(), error=None)
     return [r for r in results if r is not None]
+
+
+@contextmanager
+def _bulk() -> Iterator[None]:
+    """Cyclic garbage collection paused while many small result objects (and no cycles) are made.
+
+    Collections would otherwise walk every result kept so far, again and again.
+    """
+    enabled = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if enabled:
+            gc.enable()
 
 
 def _policy_problem(path: str | None) -> str | None:
@@ -245,7 +266,7 @@ def assess_all(
     size = min(CHUNK, -(-len(entries) // (4 * workers))) if parallel else CHUNK  # four runs a worker
     chunks = [entries[i : i + size] for i in range(0, len(entries), size)]
     results: list[BatchResult] = []
-    with ProcessPoolExecutor(max_workers=workers) if parallel else nullcontext() as pool:
+    with _bulk(), ProcessPoolExecutor(max_workers=workers) if parallel else nullcontext() as pool:
         done: Iterator[list[BatchResult]] = pool.map(assess_chunk, chunks) if pool else map(assess_chunk, chunks)
         for chunk in done:
             results.extend(chunk)

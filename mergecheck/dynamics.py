@@ -153,27 +153,31 @@ class PowerLimitedVehicle:
 
     def tractive_force(self, speed: ArrayLike, elevation: ArrayLike = 0.0) -> FloatArray:
         """Maximum tractive force at the driven wheels, Eqs. (2)-(3). [N]"""
-        v = np.maximum(np.asarray(speed, dtype=float), 1e-9)
-        density_ratio = air_density(elevation) / SEA_LEVEL_AIR_DENSITY
+        return self._tractive_force(np.asarray(speed, dtype=float), air_density(elevation))
+
+    def resistance(self, speed: ArrayLike, grade: ArrayLike, elevation: ArrayLike = 0.0) -> FloatArray:
+        """Total road load: aerodynamic, rolling and grade, Eqs. (4)-(6). [N]"""
+        return self._resistance(np.asarray(speed, dtype=float), np.asarray(grade, dtype=float), air_density(elevation))
+
+    def acceleration(self, speed: ArrayLike, grade: ArrayLike, elevation: ArrayLike = 0.0) -> FloatArray:
+        """Maximum acceleration, Eq. (1). [m/s^2]"""
+        v, density = np.asarray(speed, dtype=float), air_density(elevation)
+        net = self._tractive_force(v, density) - self._resistance(v, np.asarray(grade, dtype=float), density)
+        return np.asarray(net / (self.mass_factor * self.mass), dtype=float)
+
+    def _tractive_force(self, speed: FloatArray, density: FloatArray) -> FloatArray:
+        v = np.maximum(speed, 1e-9)
+        density_ratio = density / SEA_LEVEL_AIR_DENSITY
         power_share = np.minimum(1.0, self.power_at_rest + (1.0 - self.power_at_rest) * v / self.full_power_speed)
         engine = self.efficiency * power_share * self.power * density_ratio**self.power_elevation_exponent / v
         adhesion_limit = self.adhesion * self.driven_axle_share * self.mass * STANDARD_GRAVITY
         return np.asarray(np.minimum(engine, adhesion_limit), dtype=float)
 
-    def resistance(self, speed: ArrayLike, grade: ArrayLike, elevation: ArrayLike = 0.0) -> FloatArray:
-        """Total road load: aerodynamic, rolling and grade, Eqs. (4)-(6). [N]"""
-        v = np.asarray(speed, dtype=float)
-        theta = np.arctan(np.asarray(grade, dtype=float))
+    def _resistance(self, v: FloatArray, grade: FloatArray, density: FloatArray) -> FloatArray:
         weight = self.mass * STANDARD_GRAVITY
-        aerodynamic = 0.5 * air_density(elevation) * self.drag_coefficient * self.frontal_area * v**2
+        secant = np.sqrt(1.0 + grade**2)  # tan(theta) = G: cos(theta) = 1/sec, sin(theta) = G/sec
+        aerodynamic = 0.5 * density * self.drag_coefficient * self.frontal_area * v**2
         rolling = (
-            weight
-            * np.cos(theta)
-            * rolling_resistance_coefficient(v, self.rolling_surface, self.rolling_c2, self.rolling_c3)
+            weight / secant * rolling_resistance_coefficient(v, self.rolling_surface, self.rolling_c2, self.rolling_c3)
         )
-        return np.asarray(aerodynamic + rolling + weight * np.sin(theta), dtype=float)
-
-    def acceleration(self, speed: ArrayLike, grade: ArrayLike, elevation: ArrayLike = 0.0) -> FloatArray:
-        """Maximum acceleration, Eq. (1). [m/s^2]"""
-        net = self.tractive_force(speed, elevation) - self.resistance(speed, grade, elevation)
-        return np.asarray(net / (self.mass_factor * self.mass), dtype=float)
+        return np.asarray(aerodynamic + rolling + weight * grade / secant, dtype=float)
