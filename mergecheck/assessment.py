@@ -2,7 +2,8 @@
 
 For each design vehicle the trajectory from the end of the controlling curve
 (or the stop line) is integrated along the real profile
-(:func:`mergecheck.trajectory.accelerate`) and read at the landmarks. The
+(:func:`mergecheck.trajectory.accelerate_many`, every vehicle of every site
+in one pass) and read at the landmarks. The
 required acceleration length is measured as the policy tables measure it:
 
 .. math:: L_{req} = \\max(0,\\; x_{merge} - x_{cp})
@@ -201,8 +202,8 @@ def merge_setting(site: Site, entry: SiteVehicle) -> MergeSetting:
     )
 
 
-def landmark_speeds(site: Site, trajectory: Trajectory, stations: FloatArray) -> FloatArray:
-    """Speed at the convergence point, the start and the end of the taper, then at ``stations``
+def path_speeds(site: Site, trajectory: Trajectory, stations: FloatArray) -> FloatArray:
+    """Speed at the convergence point and the start and the end of the taper, then at ``stations``
     (held at the last speed beyond the integrated path). [m/s]"""
     landmarks = [site.convergence, site.taper_start, site.taper_end]
     return trajectory.speed_at(np.minimum(np.concatenate([landmarks, stations]), trajectory.end))
@@ -213,16 +214,16 @@ def assess_vehicle(
     entry: SiteVehicle,
     initial_speed: float,
     trajectory: Trajectory,
-    speeds: FloatArray,
+    landmarks: FloatArray,
     merge: MergeReliability,
     monte_carlo: int = 0,
     seed: int = 0,
 ) -> VehicleAssessment:
     """Read one design vehicle's trajectory and merge probability against the lane.
 
-    ``speeds`` start with the speeds at the three landmarks (:func:`landmark_speeds`).
+    ``landmarks`` are its speeds at the convergence point and the start and the end of the taper.
     """
-    at_convergence, at_taper_start, at_taper_end = (float(v) for v in speeds[:3])
+    at_convergence, at_taper_start, at_taper_end = (float(v) for v in landmarks)
     merge_station = trajectory.target_station
     available = site.available_length
     required = None if merge_station is None else max(0.0, merge_station - site.convergence)
@@ -309,17 +310,11 @@ def assess_many(sites: list[Site], *, monte_carlo: int = 0, seed: int = 20261202
     """
     tables = _policy_tables(sites)
     initial = [_initial_speed(site, table) for site, table in zip(sites, tables, strict=True)]
-    runs = [
-        trajectory_run(site, entry, speed)
-        for site, (speed, _) in zip(sites, initial, strict=True)
-        for entry in site.vehicles
-    ]
-    trajectories = accelerate_many(runs)
-    stations = [merge_stations(site) for site in sites]
     entries = [(k, entry) for k, site in enumerate(sites) for entry in site.vehicles]
+    trajectories = accelerate_many([trajectory_run(sites[k], entry, initial[k][0]) for k, entry in entries])
+    stations = [merge_stations(site) for site in sites]
     speeds = [
-        landmark_speeds(sites[k], trajectory, stations[k])
-        for (k, _), trajectory in zip(entries, trajectories, strict=True)
+        path_speeds(sites[k], trajectory, stations[k]) for (k, _), trajectory in zip(entries, trajectories, strict=True)
     ]
     merges = merge_reliabilities(
         [stations[k] for k, _ in entries], [v[3:] for v in speeds], [merge_setting(sites[k], e) for k, e in entries]
@@ -328,7 +323,7 @@ def assess_many(sites: list[Site], *, monte_carlo: int = 0, seed: int = 20261202
     for (k, entry), trajectory, v, merge in zip(entries, trajectories, speeds, merges, strict=True):
         order = len(vehicles[k])
         vehicles[k].append(
-            assess_vehicle(sites[k], entry, initial[k][0], trajectory, v, merge, monte_carlo, seed + order)
+            assess_vehicle(sites[k], entry, initial[k][0], trajectory, v[:3], merge, monte_carlo, seed + order)
         )
     return [
         _site_assessment(site, table, speed, basis, tuple(results))
