@@ -32,9 +32,10 @@ within tau after entering a fresh gap,
 
 and the probability of having merged by station x is
 1 - E_{t_c}[P_not(tau(x))], the expectation taken by Gauss-Hermite
-quadrature over the log-normal. Eq. (2) is solved on a grid in tau (the
-headway distribution as a probability mass per cell), Eq. (3) by
-convolution. :func:`simulate_merges` checks both by Monte Carlo.
+quadrature over the log-normal (8 nodes). Eqs. (2) and (3) are solved on a
+grid in tau, the headway distribution as a probability mass per cell, by
+damped Fourier transforms (:class:`Renewal`); :func:`simulate_merges`
+checks both by Monte Carlo.
 
 References
 ----------
