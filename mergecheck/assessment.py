@@ -42,7 +42,7 @@ from .headways import HeadwayModel, headway_model
 from .merge_operations import MergeOperations, merge_operations
 from .policy import PolicyTable, PolicyValue, initial_speed_for, load_policy, policy_minimum
 from .site import Site, SiteVehicle
-from .trajectory import Run, Trajectory, accelerate_many
+from .trajectory import Run, Trajectory, accelerate_many, speeds_at
 from .units import show
 from .vehicles import DesignVehicle
 
@@ -202,11 +202,11 @@ def merge_setting(site: Site, entry: SiteVehicle) -> MergeSetting:
     )
 
 
-def path_speeds(site: Site, trajectory: Trajectory, stations: FloatArray) -> FloatArray:
-    """Speed at the convergence point and the start and the end of the taper, then at ``stations``
-    (held at the last speed beyond the integrated path). [m/s]"""
+def path_stations(site: Site, stations: FloatArray, trajectory: Trajectory) -> FloatArray:
+    """The convergence point and the start and the end of the taper, then ``stations``, within the integrated
+    path (a vehicle holds its last speed beyond it). [m]"""
     landmarks = [site.convergence, site.taper_start, site.taper_end]
-    return trajectory.speed_at(np.minimum(np.concatenate([landmarks, stations]), trajectory.end))
+    return np.asarray(np.minimum(np.concatenate([landmarks, stations]), trajectory.end), dtype=float)
 
 
 def assess_vehicle(
@@ -313,9 +313,10 @@ def assess_many(sites: list[Site], *, monte_carlo: int = 0, seed: int = 20261202
     entries = [(k, entry) for k, site in enumerate(sites) for entry in site.vehicles]
     trajectories = accelerate_many([trajectory_run(sites[k], entry, initial[k][0]) for k, entry in entries])
     stations = [merge_stations(site) for site in sites]
-    speeds = [
-        path_speeds(sites[k], trajectory, stations[k]) for (k, _), trajectory in zip(entries, trajectories, strict=True)
-    ]
+    speeds = speeds_at(
+        trajectories,
+        [path_stations(sites[k], stations[k], t) for (k, _), t in zip(entries, trajectories, strict=True)],
+    )
     merges = merge_reliabilities(
         [stations[k] for k, _ in entries], [v[3:] for v in speeds], [merge_setting(sites[k], e) for k, e in entries]
     )

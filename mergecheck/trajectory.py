@@ -165,29 +165,52 @@ class Trajectory:
 
     def speed_at(self, station: ArrayLike) -> FloatArray:
         """Speed at stations within the integrated range. [m/s]"""
-        u = self._state_at(np.asarray(station, dtype=float), 0)
-        return np.asarray(np.sqrt(np.maximum(2.0 * u, 0.0)), dtype=float)
+        x = np.asarray(station, dtype=float)
+        return speeds_at([self], [x.reshape(-1)])[0].reshape(x.shape)
 
     def time_at(self, station: ArrayLike) -> FloatArray:
         """Time at stations within the integrated range. [s]"""
-        return self._state_at(np.asarray(station, dtype=float), 1)
+        x = np.asarray(station, dtype=float)
+        return _evaluate([self], [x.reshape(-1)], 1)[0].reshape(x.shape)
 
-    def _state_at(self, x: FloatArray, component: int) -> FloatArray:
-        """u = v^2/2 (component 0) or t (component 1) at stations x."""
-        if np.any(x < self.start - 1e-9) or np.any(x > self.end + 1e-9):
-            raise ValueError("station outside the integrated range")
-        u0 = 0.5 * self.initial_speed**2
-        p = self.pieces
-        if p.x.size:
-            i = np.clip(np.searchsorted(p.x, x, side="right") - 1, 0, p.x.size - 1)
-            value = _dense(p.y[component, i], p.h[i], p.q[:, component, i], (x - p.x[i]) / p.h[i])
-        else:
-            value = np.full(x.shape, u0 if component == 0 else 0.0)
-        if self.launch is not None:  # constant acceleration: u = u0 + a (x - x0), t = (v - v0) / a
-            u_launch = u0 + self.launch * (x - self.start)
-            launch = u_launch if component == 0 else (np.sqrt(2.0 * u_launch) - self.initial_speed) / self.launch
-            value = np.where(x < self.start + _START_STEP, launch, value)
-        return np.asarray(value, dtype=float)
+
+def speeds_at(trajectories: Sequence[Trajectory], stations: Sequence[FloatArray]) -> list[FloatArray]:
+    """Speed of each trajectory at its own stations (within its integrated range), evaluated together. [m/s]"""
+    return [np.sqrt(np.maximum(2.0 * u, 0.0)) for u in _evaluate(trajectories, stations, 0)]
+
+
+def _evaluate(trajectories: Sequence[Trajectory], stations: Sequence[FloatArray], component: int) -> list[FloatArray]:
+    """u = v^2/2 (component 0) or t (component 1) of each trajectory at its stations, on its continuous extension."""
+    pieces = [t.pieces for t in trajectories]
+    counts = np.array([p.x.size for p in pieces])
+    offsets = np.concatenate([[0], np.cumsum(counts)[:-1]])
+    index: list[NDArray[np.intp]] = []
+    for p, x, offset in zip(pieces, stations, offsets, strict=True):
+        index.append(offset + np.clip(np.searchsorted(p.x, x, side="right") - 1, 0, max(p.x.size - 1, 0)))
+    x = np.concatenate(stations)
+    i = np.concatenate(index)
+    sizes = [s.size for s in stations]
+    owner = np.repeat(np.arange(len(trajectories)), sizes)
+    start = np.array([t.start for t in trajectories])[owner]
+    if np.any(x < start - 1e-9) or np.any(x > np.array([t.end for t in trajectories])[owner] + 1e-9):
+        raise ValueError("station outside the integrated range")
+    v0 = np.array([t.initial_speed for t in trajectories])[owner]
+    u0 = 0.5 * v0**2
+    value = u0 if component == 0 else np.zeros_like(x)
+    if counts.sum():
+        step_x, h = np.concatenate([p.x for p in pieces]), np.concatenate([p.h for p in pieces])
+        y = np.concatenate([p.y[component] for p in pieces])
+        q = np.concatenate([p.q[:, component] for p in pieces], axis=1)
+        i = np.minimum(i, step_x.size - 1)
+        dense = _dense(y[i], h[i], q[:, i], (x - step_x[i]) / h[i])
+        value = np.where(counts[owner] > 0, dense, value)
+    launch = np.array([np.nan if t.launch is None else t.launch for t in trajectories])[owner]
+    first = ~np.isnan(launch) & (x < start + _START_STEP)
+    if first.any():  # constant acceleration: u = u0 + a (x - x0), t = (v - v0) / a
+        u_launch = u0[first] + launch[first] * (x[first] - start[first])
+        value = np.array(value, dtype=float)
+        value[first] = u_launch if component == 0 else (np.sqrt(2.0 * u_launch) - v0[first]) / launch[first]
+    return np.split(np.asarray(value, dtype=float), np.cumsum(sizes)[:-1])
 
 
 @dataclass(frozen=True, slots=True)
