@@ -50,8 +50,9 @@ RELIABILITY_SEARCH = 3000.0
 """How far beyond the taper the lane is imagined extended to find the length for the target reliability. [m]"""
 MERGE_GRID = 5.0
 """Spacing of the stations at which the merge probability is evaluated along the lane and taper. [m]"""
-SEARCH_GRID = 10.0
-"""Spacing of those stations in the search beyond the taper (an imagined longer lane). [m]"""
+SEARCH_GRID = 20.0
+"""Spacing of those stations in the search beyond the taper (an imagined longer lane; lengths found there are
+interpolated between stations, to well under a metre). [m]"""
 FloatArray = NDArray[np.float64]
 VehicleVerdict = Literal["meets", "short", "cannot-reach"]
 SiteVerdict = Literal["meets", "short"]

@@ -182,35 +182,34 @@ def speeds_at(trajectories: Sequence[Trajectory], stations: Sequence[FloatArray]
 def _evaluate(trajectories: Sequence[Trajectory], stations: Sequence[FloatArray], component: int) -> list[FloatArray]:
     """u = v^2/2 (component 0) or t (component 1) of each trajectory at its stations, on its continuous extension."""
     pieces = [t.pieces for t in trajectories]
-    counts = np.array([p.x.size for p in pieces])
-    offsets = np.concatenate([[0], np.cumsum(counts)[:-1]])
-    index: list[NDArray[np.intp]] = []
-    for p, x, offset in zip(pieces, stations, offsets, strict=True):
-        index.append(offset + np.clip(np.searchsorted(p.x, x, side="right") - 1, 0, max(p.x.size - 1, 0)))
+    counts = [p.x.size for p in pieces]
+    offsets = np.cumsum([0, *counts[:-1]])
     x = np.concatenate(stations)
-    i = np.concatenate(index)
     sizes = [s.size for s in stations]
-    owner = np.repeat(np.arange(len(trajectories)), sizes)
-    start = np.array([t.start for t in trajectories])[owner]
-    if np.any(x < start - 1e-9) or np.any(x > np.array([t.end for t in trajectories])[owner] + 1e-9):
-        raise ValueError("station outside the integrated range")
-    v0 = np.array([t.initial_speed for t in trajectories])[owner]
-    u0 = 0.5 * v0**2
-    value = u0 if component == 0 else np.zeros_like(x)
-    if counts.sum():
+    bounds = np.cumsum([0, *sizes])
+    for t, lo, hi in zip(trajectories, bounds[:-1], bounds[1:], strict=True):
+        if hi > lo and (x[lo:hi].min() < t.start - 1e-9 or x[lo:hi].max() > t.end + 1e-9):
+            raise ValueError("station outside the integrated range")
+    value = np.zeros_like(x)
+    if sum(counts):
+        i = np.concatenate(
+            [o + np.clip(np.searchsorted(p.x, s, side="right") - 1, 0, max(c - 1, 0)) for p, s, o, c in
+             zip(pieces, stations, offsets, counts, strict=True)]
+        )  # fmt: skip
+        i = np.minimum(i, sum(counts) - 1)
         step_x, h = np.concatenate([p.x for p in pieces]), np.concatenate([p.h for p in pieces])
         y = np.concatenate([p.y[component] for p in pieces])
         q = np.concatenate([p.q[:, component] for p in pieces], axis=1)
-        i = np.minimum(i, step_x.size - 1)
-        dense = _dense(y[i], h[i], q[:, i], (x - step_x[i]) / h[i])
-        value = np.where(counts[owner] > 0, dense, value)
-    launch = np.array([np.nan if t.launch is None else t.launch for t in trajectories])[owner]
-    first = ~np.isnan(launch) & (x < start + _START_STEP)
-    if first.any():  # constant acceleration: u = u0 + a (x - x0), t = (v - v0) / a
-        u_launch = u0[first] + launch[first] * (x[first] - start[first])
-        value = np.array(value, dtype=float)
-        value[first] = u_launch if component == 0 else (np.sqrt(2.0 * u_launch) - v0[first]) / launch[first]
-    return np.split(np.asarray(value, dtype=float), np.cumsum(sizes)[:-1])
+        value = _dense(y[i], h[i], q[:, i], (x - step_x[i]) / h[i])
+    for t, count, lo, hi in zip(trajectories, counts, bounds[:-1], bounds[1:], strict=True):
+        u0 = 0.5 * t.initial_speed**2
+        if count == 0:  # no step taken: the vehicle never left its start
+            value[lo:hi] = u0 if component == 0 else 0.0
+        if t.launch is not None:  # the first centimetre at constant acceleration: u = u0 + a (x - x0), t = (v - v0) / a
+            first = lo + np.flatnonzero(x[lo:hi] < t.start + _START_STEP)
+            u_launch = u0 + t.launch * (x[first] - t.start)
+            value[first] = u_launch if component == 0 else (np.sqrt(2.0 * u_launch) - t.initial_speed) / t.launch
+    return np.split(value, bounds[1:-1])
 
 
 @dataclass(frozen=True, slots=True)
