@@ -63,7 +63,6 @@ _RECHECK = 500.0  # m: the crawl speed is found again after this much climbing (
 _SETTLED = 0.02  # relative closeness to the crawl speed at which integration stops
 _TOLERANCE = np.array([[1e-8], [1e-9]])  # relative and absolute: on u [m^2/s^2], on t [s]
 _SAFETY, _MIN_FACTOR, _MAX_FACTOR = 0.9, 0.2, 10.0  # step-size control (Hairer et al. II.4)
-_TAIL_THINNING = 10  # beyond `detail_until` samples are this many output steps apart
 _A, _B, _C, _E, _P = RK45.A, RK45.B, RK45.C, RK45.E, RK45.P  # Dormand-Prince 5(4) and its dense output
 # Weighted sums of stages use numpy.einsum, not BLAS: the arrays are small and BLAS threads would
 # fight the batch's worker processes for the cores.
@@ -374,7 +373,7 @@ class _State:
         self.stalled = np.zeros(n, dtype=bool)
         self.done = self.reached & (self.through <= self.start)
         self.launch = np.full(n, np.nan)
-        self.steps = _Steps([], [], [], [], [], [])
+        self.steps = _Steps([], [], [], [], [])
         self._standing_start()
         self.h = np.zeros(n)
         self.rejected = np.zeros(n, dtype=bool)
@@ -487,7 +486,7 @@ class _State:
             for row in (0, 1):
                 y1[row, stall] = _dense(y0[row, stall], h[stall], q[:, row, stall], sigma)
             self.stalled[cols[stall]], self.crawl[cols[stall]] = True, 0.0
-        self.steps.append(cols, x0, h, end, y0, q)
+        self.steps.append(cols, x0, h, y0, q)
         self.x[cols], self.y[:, cols] = end, y1
         finished = self.stalled[cols] | (end >= self.end_limit[cols] - 1e-9)
         finished |= self.reached[cols] & (end >= self.through[cols] - 1e-9)
@@ -514,8 +513,8 @@ class _State:
 
     def trajectories(self, runs: list[Run], output_step: float) -> list[Trajectory]:
         """One trajectory per column, holding its own steps."""
-        steps = self.steps.joined()
-        bounds = np.searchsorted(steps.column, np.arange(len(runs) + 1))
+        column, steps = self.steps.joined()
+        bounds = np.searchsorted(column, np.arange(len(runs) + 1))
         result = []
         for i, run in enumerate(runs):
             piece = slice(bounds[i], bounds[i + 1])
@@ -540,51 +539,34 @@ class _State:
 
 @dataclass(slots=True)
 class _Steps:
-    """Accepted steps of every column, kept for sampling on the continuous extension."""
+    """Accepted steps of every column, kept as each trajectory's continuous extension."""
 
     column: list[IndexArray]
     x: list[FloatArray]
     h: list[FloatArray]
-    end: list[FloatArray]
     y: list[FloatArray]
     q: list[FloatArray]
 
-    def append(
-        self, column: IndexArray, x: FloatArray, h: FloatArray, end: FloatArray, y: FloatArray, q: FloatArray
-    ) -> None:
+    def append(self, column: IndexArray, x: FloatArray, h: FloatArray, y: FloatArray, q: FloatArray) -> None:
         self.column.append(column)
         self.x.append(x)
         self.h.append(h)
-        self.end.append(end)
         self.y.append(y)
         self.q.append(q)
 
-    def joined(self) -> _JoinedSteps:
-        """All steps, grouped by column in station order."""
+    def joined(self) -> tuple[IndexArray, Pieces]:
+        """All steps as one set of pieces grouped by column in station order, and the column of each."""
         if not self.column:
-            return _JoinedSteps(
-                np.empty(0, np.intp), np.empty(0), np.ones(0), np.empty(0), np.empty((2, 0)), np.empty((4, 2, 0))
-            )
+            self.append(np.empty(0, np.intp), np.empty(0), np.ones(0), np.empty((2, 0)), np.empty((4, 2, 0)))
         column, x = np.concatenate(self.column), np.concatenate(self.x)
         order = np.lexsort((x, column))
-        return _JoinedSteps(
-            column[order],
+        pieces = Pieces(
             x[order],
             np.concatenate(self.h)[order],
-            np.concatenate(self.end)[order],
             np.concatenate(self.y, axis=1)[:, order],
             np.concatenate(self.q, axis=2)[:, :, order],
         )
-
-
-@dataclass(frozen=True, slots=True)
-class _JoinedSteps:
-    column: IndexArray
-    x: FloatArray
-    h: FloatArray
-    end: FloatArray
-    y: FloatArray
-    q: FloatArray
+        return column[order], pieces
 
 
 def _dense(y0: FloatArray, h: FloatArray, q: FloatArray, sigma: FloatArray) -> FloatArray:
