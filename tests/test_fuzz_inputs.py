@@ -120,3 +120,20 @@ def test_vehicle_profile_values_never_raise_anything_else(block: str, name: str,
         assert "fuzz.yaml" in str(error)
     else:
         assert vehicle.id == "passenger-car"
+
+
+UNITS = [("mph", "speed"), ("km/h", "speed"), ("ft", "length"), ("mi", "length"), ("%", "grade"),
+         ("kg/kW", "weight_to_power"), ("lb/hp", "weight_to_power"), ("veh/h", "flow"), ("pc/h", "flow"),
+         ("m/s^2", "acceleration"), ("veh/mi", "density"), ("hp", "power"), ("lb", "mass")]  # fmt: skip
+
+
+@settings(max_examples=200, deadline=None)
+@given(number=st.floats(min_value=-1e6, max_value=1e6, allow_nan=False), unit=st.sampled_from(UNITS))
+def test_number_and_unit_read_as_pint_reads_them(number: float, unit: tuple[str, str]) -> None:
+    """The quick path for 'number unit' text (the unit's factor read once) gives pint's own conversion
+    (general-purpose reference library) to 1e-12 relative."""
+    from mergecheck.units import parse_quantity, si_unit, ureg
+
+    text = f"{number!r} {unit[0]}"
+    expected = float(ureg.Quantity(text).to(si_unit(unit[1]) or "dimensionless").magnitude)
+    assert parse_quantity(text, unit[1], source="fuzz", field="f") == pytest.approx(expected, rel=1e-12, abs=1e-300)
