@@ -339,15 +339,16 @@ def solve_renewals(
         streams.setdefault(headways, {})[gap] = None
         reach[headways] = max(reach.get(headways, 0.0), needed)
     masses = {h: _cell_masses(h, list(gaps), reach[h]) for h, gaps in streams.items()}
-    order = sorted(masses, key=lambda h: masses[h].cells)
     solved: dict[HeadwayModel, Renewal] = {}
-    while order:
-        batch = [order.pop(0)]
-        while (
-            order and (len(batch) + 1) * masses[order[0]].rejected.shape[0] * 2 * masses[order[0]].cells < _BATCH_CELLS
-        ):
-            batch.append(order.pop(0))
-        solved |= dict(zip(batch, _solve([masses[h] for h in batch]), strict=True))
+    batch: list[HeadwayModel] = []
+    for h in sorted(masses, key=lambda h: masses[h].cells):  # shortest first: a batch's longest sets its size
+        work = masses[h].rejected.shape[0] * 2 * masses[h].cells  # node rows times transform length, about
+        if batch and (len(batch) + 1) * work >= _BATCH_CELLS:
+            solved |= dict(zip(batch, _solve([masses[b] for b in batch]), strict=True))
+            batch = []
+        batch.append(h)
+    if batch:
+        solved |= dict(zip(batch, _solve([masses[b] for b in batch]), strict=True))
     return [(solved[h], list(streams[h]).index(gap)) for h, gap, _ in requests]
 
 

@@ -61,7 +61,7 @@ def parse_quantity(text: object, kind: str, *, source: str, field: str) -> float
     float
         The value in SI units (m, s, m/s, kg, W, kg/W, grade as a fraction).
     """
-    si_unit, example = _KINDS[kind]
+    example = _KINDS[kind][1]
     if isinstance(text, bool) or text is None:
         raise _bad(source, field, f"expected {example}, got {text!r}")
     if isinstance(text, (int, float)):
@@ -71,23 +71,30 @@ def parse_quantity(text: object, kind: str, *, source: str, field: str) -> float
     quick = _NUMBER_AND_UNIT.fullmatch(text)
     if quick:  # the common 'number unit' form: pint reads the unit once, the number is a float
         factor = _unit_factor(quick["unit"], kind)
-        value = float(quick["number"]) * factor if factor is not None else math.nan
+        value = float(quick["number"]) * factor if isinstance(factor, float) else math.nan
         if math.isfinite(value):
             return value
+    result = _si_value(text, kind)
+    if isinstance(result, str):
+        raise _bad(source, field, result)
+    return result
+
+
+def _si_value(text: str, kind: str) -> float | str:
+    """The SI value of a quantity written as text, or the rule it breaks."""
+    si_unit, example = _KINDS[kind]
     try:
         quantity: Any = ureg.Quantity(text.strip())
     except Exception:  # pint's parser raises many kinds (tokenize, assertion, pint, value errors) on odd text
-        raise _bad(source, field, f"cannot read {text!r} as a quantity: expected {example}") from None
-    if not isinstance(quantity, pint.Quantity):
-        raise _bad(source, field, f"a unit is required: expected {example}, got {text!r}")
-    if quantity.dimensionless and quantity.units == ureg.dimensionless:
-        raise _bad(source, field, f"a unit is required: expected {example}, got {text!r}")
+        return f"cannot read {text!r} as a quantity: expected {example}"
+    if not isinstance(quantity, pint.Quantity) or (quantity.dimensionless and quantity.units == ureg.dimensionless):
+        return f"a unit is required: expected {example}, got {text!r}"
     try:
         value = float(quantity.to(si_unit or "dimensionless").magnitude)
     except pint.errors.DimensionalityError:
-        raise _bad(source, field, f"wrong kind of quantity {text!r}: expected {example}") from None
+        return f"wrong kind of quantity {text!r}: expected {example}"
     if not math.isfinite(value):
-        raise _bad(source, field, f"{text!r} is not a finite number")
+        return f"{text!r} is not a finite number"
     return value
 
 
@@ -97,18 +104,9 @@ _NUMBER_AND_UNIT = re.compile(
 
 
 @functools.lru_cache(maxsize=1024)
-def _unit_factor(unit: str, kind: str) -> float | None:
-    """SI value of one ``unit`` of this kind of quantity; None when pint does not read it as one.
-
-    None sends the text to the full parser, which explains what is wrong.
-    """
-    try:
-        quantity: Any = ureg.Quantity(f"1 {unit}")
-        if not isinstance(quantity, pint.Quantity) or quantity.units == ureg.dimensionless:
-            return None
-        return float(quantity.to(_KINDS[kind][0] or "dimensionless").magnitude)
-    except Exception:  # pint raises many kinds on odd text
-        return None
+def _unit_factor(unit: str, kind: str) -> float | str:
+    """SI value of one ``unit`` of this kind of quantity, or the rule it breaks (:func:`_si_value`)."""
+    return _si_value(f"1 {unit}", kind)
 
 
 def si_unit(kind: str) -> str:
