@@ -119,7 +119,7 @@ def test_reliability_consequences() -> None:
         reliability=0.95,
         flow=300 / 3600,
     )
-    # 15 + 0.03 x = 20 m/s at x = 166.67 m; between 1 m samples the crossing is interpolated in v^2
+    # 15 + 0.03 x = 20 m/s at x = 166.67 m (by hand); between 1 m samples the crossing is interpolated in v^2
     assert result.eligible_station == pytest.approx(500.0 / 3.0, abs=1e-3)
     assert 0 < result.by_lane_end <= result.by_taper_end < 1
     assert result.stops_per_h == pytest.approx(300 * (1 - result.by_taper_end))
