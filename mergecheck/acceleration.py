@@ -41,55 +41,89 @@ class AccelerationModel(Protocol):
 
 @dataclass(frozen=True, slots=True)
 class PowerLimited:
-    """Full-performance acceleration of a power-limited vehicle.
+    """Acceleration of a power-limited vehicle, at the share of its surplus its driver uses.
 
-    .. math:: a = \\frac{F_t(v) - R_a(v) - R_r(v) - R_g}{\\lambda m}
+    .. math::
 
-    See :mod:`mergecheck.dynamics` for the terms and references. Validity:
-    the calibration range of Rakha et al. (2001), trucks of 85 to 169 kg/kW;
-    grades to about 8 %.
+        a_{max} = \\frac{F_t(v) - R_a(v) - R_r(v) - R_g}{\\lambda m}          (1)
+
+        a = \\begin{cases} s\\, a_{max} & a_{max} > 0 \\\\
+                           a_{max} & a_{max} \\le 0 \\end{cases}              (2)
+
+    Eq. (1) is the vehicle's maximum (see :mod:`mergecheck.dynamics` for the
+    terms and references). In Eq. (2) s is the driver's share of the
+    acceleration the vehicle could give: s = 1 is full performance. When the
+    vehicle is losing speed (a_max <= 0, a truck on an upgrade) the driver is
+    taken to be at full power, so crawl speeds and speed-loss distances are
+    those of the vehicle itself, whatever s. Typical drivers of light vehicles
+    use about 0.60 of the maximum, standard deviation 0.08 (Snare 2002);
+    observed starting accelerations of combination trucks fall 40 to 75 %
+    below design values (Long 2000).
+
+    Validity: the calibration range of Rakha et al. (2001), trucks of 85 to
+    169 kg/kW; grades to about 8 %.
+
+    References
+    ----------
+    Snare, M. (2002). Dynamics model for predicting maximum and typical
+    acceleration rates of passenger vehicles. MS thesis, Virginia Tech.
+    Long, G. (2000). "Acceleration characteristics of starting vehicles."
+    Transportation Research Record 1737, 58-70 (abstract).
     """
 
     vehicle: PowerLimitedVehicle
+    driver_share: float = 1.0
+    """s: share of the vehicle's surplus acceleration the driver uses, Eq. (2). [-]"""
 
     def acceleration(self, speed: ArrayLike, grade: ArrayLike, elevation: ArrayLike = 0.0) -> FloatArray:
-        return self.vehicle.acceleration(speed, grade, elevation)
+        maximum = self.vehicle.acceleration(speed, grade, elevation)  # Eq. (1)
+        return np.asarray(np.where(maximum > 0.0, self.driver_share * maximum, maximum), dtype=float)  # Eq. (2)
 
 
 @dataclass(frozen=True, slots=True)
 class LinearDecreasing:
-    """Driver-chosen acceleration, linear-decreasing in speed, capped by capability.
+    """Driver-chosen acceleration, linear-decreasing in speed, with separate upgrade and downgrade responses.
 
     .. math::
 
-        a(v, G) = \\min\\big(\\alpha - \\beta v - \\kappa\\, g\\, G,\\;
-                             a_{max}(v, G)\\big)                   (1)
+        L(v) = \\alpha - \\beta v                                        (1)
 
-    The level-grade part alpha - beta*v is the linear-decreasing model of
-    Long (2000), which represents both capability and behaviour better than a
-    constant rate; on level grade it integrates in closed form:
+        c(v, G) = \\begin{cases}
+            \\max\\big(L(v) - \\kappa_u\\, g\\, G,\\; \\phi\\, L(v)\\big) & G \\ge 0 \\\\
+            L(v) + \\kappa_d\\, g\\, |G| & G < 0 \\end{cases}            (2)
+
+        a(v, G) = \\min\\big(c(v, G),\\; a_{max}(v, G)\\big)               (3)
+
+    The level-grade part L(v) is the linear-decreasing model of Long (2000),
+    which represents both capability and behaviour better than a constant
+    rate; on level grade it integrates in closed form:
 
     .. math::
 
-        v(t) = \\frac{\\alpha}{\\beta}(1 - e^{-\\beta t}) + v_0 e^{-\\beta t}   (2)
+        v(t) = \\frac{\\alpha}{\\beta}(1 - e^{-\\beta t}) + v_0 e^{-\\beta t}   (4)
 
         x(v) = \\frac{1}{\\beta}\\left[(v_0 - v) + \\frac{\\alpha}{\\beta}
-               \\ln\\frac{\\alpha - \\beta v_0}{\\alpha - \\beta v}\\right]     (3)
+               \\ln\\frac{\\alpha - \\beta v_0}{\\alpha - \\beta v}\\right]     (5)
 
-    kappa is the share of the grade force a driver does not make up with
-    extra throttle (0: ignores the grade; 1: keeps the same throttle as on
-    the level). a_max is the car's power-limited capability; when the
-    capability binds, the driver uses all of it.
+    On an upgrade kappa_u is the share of the grade force a driver does not
+    make up with extra throttle, but a driver never lets the chosen
+    acceleration fall below the share phi of the level-road choice: the rest
+    of the grade force is made up with power as long as the car has it, so a
+    grade never sets a "crawl speed" of its own below the car's physical one.
+    On a downgrade the driver takes the share kappa_d of the grade force as
+    extra acceleration. a_max is the car's power-limited capability
+    (:mod:`mergecheck.dynamics`); when it binds, the driver uses all of it.
 
     The passenger-car defaults are calibrated (``scripts/calibrate_passenger_car.py``)
-    to the policy acceleration lengths and 3-4 % upgrade factors of the AASHTO
-    Green Book (6th ed. 2011, table values transcribed from memory): alpha =
-    1.0518 m/s^2, beta = 0.02824 1/s, kappa = 0.5187. Residuals of the
-    calibration: the 58 level-grade lengths, rms 5.5 %, largest 13.3 % (the
-    30 mph / stop cell, which also stands out in the table's own implied
-    acceleration); the 13 grade factors, rms 3.2 %, largest 5.5 %. Validity:
-    merge speeds to about 90 km/h (the policy table's range) and grades within
-    +/- 6 %; beyond them the model is an extrapolation.
+    to the policy acceleration lengths and all four blocks of grade factors
+    (3-4 % and 5-6 % upgrades and downgrades) of the AASHTO Green Book (6th
+    ed. 2011, table values transcribed from memory): alpha = 1.0690 m/s^2,
+    beta = 0.02929 1/s, kappa_u = 0.4976, phi = 0.1078, kappa_d = 0.9413.
+    Residuals: the 58 level-grade lengths, rms 5.5 %, largest 14.9 % (the
+    70 mph / 50 mph cell); the grade factors, rms 3.4 % (3-4 % up), 7.5 %
+    (5-6 % up), 3.5 % (3-4 % down), 4.1 % (5-6 % down), largest 12.8 %.
+    Validity: merge speeds to about 90 km/h (the policy table's range) and
+    grades within +/- 6 %; beyond them the model is an extrapolation.
 
     References
     ----------
@@ -102,17 +136,24 @@ class LinearDecreasing:
     beta: float
     """Rate at which chosen acceleration falls with speed. [1/s]"""
     grade_response: float
-    """kappa: share of the grade force the driver does not compensate. [-]"""
+    """kappa_u: share of an upgrade's force the driver does not compensate, Eq. (2). [-]"""
     capability: PowerLimitedVehicle | None = None
-    """Physical capability that caps the chosen acceleration."""
+    """Physical capability that caps the chosen acceleration, Eq. (3)."""
+    upgrade_floor: float = 0.0
+    """phi: least share of the level-road choice kept on an upgrade, Eq. (2). [-]"""
+    downgrade_response: float | None = None
+    """kappa_d: share of a downgrade's force taken as extra acceleration, Eq. (2); None: kappa_u. [-]"""
 
     def chosen(self, speed: ArrayLike, grade: ArrayLike) -> FloatArray:
-        """The driver's choice before the capability cap, Eq. (1) first term. [m/s^2]"""
-        v = np.asarray(speed, dtype=float)
-        return self.alpha - self.beta * v - self.grade_response * STANDARD_GRAVITY * np.asarray(grade, dtype=float)
+        """The driver's choice before the capability cap, Eq. (2). [m/s^2]"""
+        g_grade = STANDARD_GRAVITY * np.asarray(grade, dtype=float)
+        level = self.alpha - self.beta * np.asarray(speed, dtype=float)  # Eq. (1)
+        down = self.grade_response if self.downgrade_response is None else self.downgrade_response
+        upgrade = np.maximum(level - self.grade_response * g_grade, self.upgrade_floor * level)
+        return np.asarray(np.where(g_grade >= 0.0, upgrade, level - down * g_grade), dtype=float)
 
     def acceleration(self, speed: ArrayLike, grade: ArrayLike, elevation: ArrayLike = 0.0) -> FloatArray:
-        chosen = self.chosen(speed, grade)  # Eq. (1)
+        chosen = self.chosen(speed, grade)  # Eq. (2)
         if self.capability is None:
             return chosen
         return np.minimum(chosen, self.capability.acceleration(speed, grade, elevation))
@@ -162,10 +203,10 @@ ACCELERATION_MODELS: dict[str, ModelEntry] = {
     ),
     "linear-decreasing": ModelEntry(
         LinearDecreasing,
-        "driver-chosen acceleration alpha - beta*v - kappa*g*G, capped by capability",
+        "driver-chosen acceleration alpha - beta*v with separate upgrade and downgrade responses, capped by capability",
         "passenger cars; merge speeds to about 90 km/h, grades within +/- 6 %",
         "Long (2000), Transportation Research Record 1737, 58-70; calibrated to AASHTO Green Book"
-        " 6th ed. (2011) acceleration lengths and grade factors (transcribed from memory)",
+        " 6th ed. (2011) acceleration lengths and all four grade-factor blocks (transcribed from memory)",
     ),
     "tabulated": ModelEntry(
         Tabulated,

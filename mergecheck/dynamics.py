@@ -29,13 +29,18 @@ References
    (2001). "Vehicle dynamics model for predicting maximum truck acceleration
    levels." J. Transp. Eng. 127(5), 418-425. doi:10.1061/(ASCE)0733-947X(2001)127:5(418).
    Equations (1), (2), (4), (5); the rolling-resistance constants
-   c2 = 0.0328, c3 = 4.575 (radial tyres) and Cr = 1.25 (fair asphalt) are
-   quoted from memory.
+   c2 = 0.0328, c3 = 4.575 (radial tyres) are quoted from memory.
 .. [2] Rakha, H., and Lucic, I. (2002). "Variable power vehicle dynamics model
    for estimating maximum truck acceleration levels." J. Transp. Eng. 128(5),
    412-419. Equation (3); the linear form is from memory.
 .. [3] ISO 2533:1975, Standard Atmosphere: air density in the troposphere,
    rho = rho0 (1 - L h / T0)^(g M / (R L) - 1).
+.. [4] Fitch, J. W. (1994). Motor Truck Engineering Handbook, 4th ed. SAE.
+   Pavement factor C_r of Eq. (5), as tabulated by Rakha et al. (2001):
+   portland cement concrete 1.00 (excellent), 1.50 (good), 2.00 (poor);
+   asphalt 1.25 (good), 1.75 (fair), 2.25 (poor) (from memory). Rakha and Yu
+   found the capacity manual's truck curves consistent with a 120 kg/kW truck
+   on fair asphalt, C_r = 1.75.
 """
 
 from __future__ import annotations
@@ -78,14 +83,15 @@ def rolling_resistance_coefficient(speed: ArrayLike, surface: float, c2: float, 
 
     .. math:: f_r = C_r (c_2 V + c_3) / 1000, \\quad V \\text{ in km/h}
 
-    Rakha et al. (2001) [1], after Fitch (1994).
+    Rakha et al. (2001) [1], after Fitch (1994) [4].
 
     Parameters
     ----------
     speed : array_like
         Vehicle speed. [m/s]
     surface : float
-        Pavement factor C_r (1.0 good concrete, 1.25 fair asphalt, 1.5 poor). [-]
+        Pavement factor C_r [4]: concrete 1.00 excellent, 1.50 good, 2.00
+        poor; asphalt 1.25 good, 1.75 fair, 2.25 poor. [-]
     c2 : float
         Tyre speed term. [1/(km/h)]
     c3 : float

@@ -17,8 +17,8 @@ and a note of where it comes from::
       acceleration_unit: m/s^2
       rows: [[0, 2.1], [20, 1.9], [40, 1.5], [60, 1.0], [80, 0.6]]
 
-Parameters and their ranges are listed in ``POWER_LIMITED``,
-``LINEAR_DECREASING`` and ``TABULATED`` below. Dimensionless parameters are
+Parameters and their ranges are listed in ``POWER_LIMITED`` (with
+``POWER_LIMITED_DRIVER``), ``LINEAR_DECREASING`` and ``TABULATED`` below. Dimensionless parameters are
 plain numbers; every other value needs its unit. The bundled profiles ship in
 the installed package (``mergecheck.vehicle_profiles``) and are found with
 importlib.resources; a user's own profile is given by its path wherever a
@@ -74,10 +74,17 @@ POWER_LIMITED: dict[str, Spec] = {
     "full_power_speed": Spec("speed", 0.1, 50.0, 1.0),
     "power_elevation_exponent": Spec("ratio", 0.0, 1.5, 0.0),
 }
+POWER_LIMITED_DRIVER: dict[str, Spec] = {
+    "driver_share": Spec("ratio", 0.1, 1.0, 1.0),
+}
+"""Driver behaviour of the power-limited model (:class:`mergecheck.acceleration.PowerLimited`)."""
+
 LINEAR_DECREASING: dict[str, Spec] = {
     "alpha": Spec("acceleration", 0.05, 6.0),
     "beta": Spec("frequency", 0.0, 1.0),
     "grade_response": Spec("ratio", 0.0, 1.5),
+    "upgrade_floor": Spec("ratio", 0.0, 1.0, 0.0),
+    "downgrade_response": Spec("ratio", 0.0, 1.5),
 }
 TABULATED: dict[str, Spec] = {
     "grade_response": Spec("ratio", 0.0, 1.5, 1.0),
@@ -212,14 +219,26 @@ def parse_vehicle(text: str, source: str) -> DesignVehicle:
     model: AccelerationModel
     if entry.model is PowerLimited:
         _forbid(source, data, capability=False, table=False)
-        physical = _power_limited(data.parameters, source, "parameters", records)
-        model = PowerLimited(physical)
+        body = {k: v for k, v in data.parameters.items() if k not in POWER_LIMITED_DRIVER}
+        driver = {k: v for k, v in data.parameters.items() if k in POWER_LIMITED_DRIVER}
+        physical = _power_limited(body, source, "parameters", records)
+        values = _read(driver, POWER_LIMITED_DRIVER, source, "parameters", records)
+        model = PowerLimited(physical, values["driver_share"])
     elif entry.model is LinearDecreasing:
         _forbid(source, data, capability=True, table=False)
-        values = _read(data.parameters, LINEAR_DECREASING, source, "parameters", records)
+        values = _read(
+            data.parameters, LINEAR_DECREASING, source, "parameters", records, optional=("downgrade_response",)
+        )
         if data.capability is not None:
             physical = _power_limited(data.capability, source, "capability", records)
-        model = LinearDecreasing(values["alpha"], values["beta"], values["grade_response"], physical)
+        model = LinearDecreasing(
+            values["alpha"],
+            values["beta"],
+            values["grade_response"],
+            physical,
+            upgrade_floor=values["upgrade_floor"],
+            downgrade_response=values.get("downgrade_response"),
+        )
     else:
         _forbid(source, data, capability=False, table=True)
         values = _read(data.parameters, TABULATED, source, "parameters", records)
@@ -271,7 +290,8 @@ def _read(
 ) -> dict[str, Any]:
     unknown = sorted(set(entries) - set(specs))
     if unknown:
-        raise InputError(source, f"{block}.{unknown[0]}", f"unknown parameter; valid parameters: {', '.join(specs)}")
+        valid = [*specs, *POWER_LIMITED_DRIVER] if specs is POWER_LIMITED and block == "parameters" else specs
+        raise InputError(source, f"{block}.{unknown[0]}", f"unknown parameter; valid parameters: {', '.join(valid)}")
     values: dict[str, float] = {}
     for name, spec in specs.items():
         field = f"{block}.{name}"

@@ -1,20 +1,24 @@
-"""Calibrate the passenger-car driver model to the policy acceleration lengths.
+"""Calibrate the passenger-car driver model to the policy acceleration lengths and grade factors.
 
-Fits alpha, beta (level-grade linear-decreasing acceleration, Long 2000) and
-kappa (share of the grade force the driver does not make up) by least squares
-on log lengths:
+Fits the five parameters of :class:`mergecheck.acceleration.LinearDecreasing`
+by least squares on log lengths and log length ratios:
 
 * every cell of the level-grade table (length from the ramp's initial speed Va'
-  to the merge speed Va), with the closed form
-  x = [(v0 - v) + (alpha/beta) ln((alpha - beta v0)/(alpha - beta v))] / beta;
-* every 3-4 % upgrade factor, as the ratio of the closed-form length with
-  alpha - kappa g G (G = 3.5 %) to the level length.
+  to the merge speed Va);
+* every grade factor of all four blocks of the table (3-4 % and 5-6 % upgrades,
+  3-4 % and 5-6 % downgrades), each block taken at its middle grade (3.5 % or
+  5.5 %), as the ratio of the length on the grade to the length on the level,
+  wherever the level table has the cell.
 
-The physical capability cap of the car does not bind anywhere in the table
-(checked below), so the closed form is exact for the model.
+Lengths come from the closed form of the linear-decreasing model,
+x = [(v0 - v) + (A/B) ln((A - B v0)/(A - B v))] / B for a = A - B v, applied
+piecewise: on an upgrade the chosen acceleration is alpha - beta v - kappa_up g G
+until it falls to the floor phi (alpha - beta v), and that floor beyond. The
+physical capability cap of the car does not bind anywhere in the table (checked
+below), so the closed form is exact for the model.
 
 Run: ``python scripts/calibrate_passenger_car.py`` (prints the fit and every
-residual; paste alpha, beta and kappa into vehicle_profiles/passenger-car.yaml).
+residual; paste the parameters into vehicle_profiles/passenger-car.yaml).
 """
 
 from __future__ import annotations
@@ -31,72 +35,101 @@ from mergecheck.units import ureg
 from mergecheck.vehicles import load_vehicle
 
 TABLE = Path(__file__).resolve().parent.parent / "mergecheck" / "data" / "policy-aashto-2011-us.yaml"
-GRADE = 0.035  # midpoint of the 3 to 4 % factor block
 
 
-def level_length(alpha: float, beta: float, v0: float, v: float) -> float:
-    if alpha - beta * v <= 0:
+def linear_length(a: float, b: float, v0: float, v: float) -> float:
+    """Distance to go from v0 to v at acceleration a - b*speed (Long 2000 closed form). [m]"""
+    if a - b * v <= 0:
         return math.inf
-    return ((v0 - v) + (alpha / beta) * math.log((alpha - beta * v0) / (alpha - beta * v))) / beta
+    if b == 0:
+        return (v * v - v0 * v0) / (2 * a)
+    return ((v0 - v) + (a / b) * math.log((a - b * v0) / (a - b * v))) / b
+
+
+def length(p: np.ndarray, grade: float, v0: float, v: float) -> float:
+    """Length of the model with parameters p on a constant grade. [m]"""
+    alpha, beta, kappa_up, floor, kappa_down = p
+    if grade <= 0:
+        return linear_length(alpha + kappa_down * STANDARD_GRAVITY * -grade, beta, v0, v)
+    c = kappa_up * STANDARD_GRAVITY * grade
+    switch = (alpha - c / (1 - floor)) / beta  # speed where alpha - beta v - c falls to floor (alpha - beta v)
+    if switch >= v:
+        return linear_length(alpha - c, beta, v0, v)
+    if switch <= v0:
+        return linear_length(floor * alpha, floor * beta, v0, v)
+    return linear_length(alpha - c, beta, v0, switch) + linear_length(floor * alpha, floor * beta, switch, v)
 
 
 def main() -> None:
     table = yaml.safe_load(TABLE.read_text())
     speed = float(ureg.Quantity(1, table["units"]["speed"]).to("m/s").magnitude)
-    length = float(ureg.Quantity(1, table["units"]["length"]).to("m").magnitude)
+    metre = float(ureg.Quantity(1, table["units"]["length"]).to("m").magnitude)
     merge = dict(zip(table["highway_speeds"], table["merge_speeds"], strict=True))
     initial = dict(zip(table["ramp_speeds"], table["ramp_initial_speeds"], strict=True))
-    cells = [
-        (V, ramp, merge[V] * speed, initial[ramp] * speed, L * length)
+    level = {
+        (V, ramp): L * metre
         for V, row in zip(table["highway_speeds"], table["lengths"], strict=True)
         for ramp, L in zip(table["ramp_speeds"], row, strict=True)
         if L is not None
-    ]
-    block = table["grade_factors"][0]
+    }
     factors = [
-        (V, ramp, merge[V] * speed, initial[ramp] * speed, f)
+        (0.5 * (block["min_grade"] + block["max_grade"]), V, ramp, f)
+        for block in table["grade_factors"]
         for V, row in zip(block["highway_speeds"], block["factors"], strict=True)
         for ramp, f in zip(block["ramp_speeds"], row, strict=True)
-        if f is not None
+        if f is not None and (V, ramp) in level
     ]
 
     def residuals(p: np.ndarray) -> np.ndarray:
-        alpha, beta, kappa = p
-        level = [math.log(level_length(alpha, beta, v0, v) / L) for _, _, v, v0, L in cells]
+        flat = [math.log(length(p, 0.0, initial[r] * speed, merge[V] * speed) / L) for (V, r), L in level.items()]
         graded = [
             math.log(
-                level_length(alpha - kappa * STANDARD_GRAVITY * GRADE, beta, v0, v)
-                / level_length(alpha, beta, v0, v)
+                length(p, g, initial[r] * speed, merge[V] * speed)
+                / length(p, 0.0, initial[r] * speed, merge[V] * speed)
                 / f
             )
-            for _, _, v, v0, f in factors
+            for g, V, r, f in factors
         ]
-        return np.array(level + graded)
+        return np.array(flat + graded)
 
-    fit = least_squares(residuals, [1.2, 0.03, 0.5])
-    alpha, beta, kappa = fit.x
-    r = 100 * (np.exp(residuals(fit.x)) - 1)
-    n = len(cells)
-    print(f"alpha = {alpha:.4f} m/s^2, beta = {beta:.5f} 1/s, kappa = {kappa:.4f}, alpha/beta = {alpha / beta:.2f} m/s")
-    print(f"level cells: {n}, rms {np.sqrt(np.mean(r[:n] ** 2)):.1f} %, max |error| {np.max(np.abs(r[:n])):.1f} %")
-    print(
-        f"grade factors: {len(factors)}, rms {np.sqrt(np.mean(r[n:] ** 2)):.1f} %, max |error| {np.max(np.abs(r[n:])):.1f} %"
+    fit = least_squares(
+        residuals, [1.05, 0.028, 0.5, 0.4, 0.5], bounds=([0.1, 0.0, 0.0, 0.05, 0.0], [5, 0.5, 1.5, 0.95, 1.5])
     )
-    for (V, ramp, *_), e in zip(cells, r[:n], strict=True):
+    alpha, beta, kappa_up, floor, kappa_down = fit.x
+    r = 100 * (np.exp(residuals(fit.x)) - 1)
+    n = len(level)
+    print(
+        f"alpha = {alpha:.4f} m/s^2, beta = {beta:.5f} 1/s, upgrade_response = {kappa_up:.4f},"
+        f" upgrade_floor = {floor:.4f}, downgrade_response = {kappa_down:.4f}, alpha/beta = {alpha / beta:.2f} m/s"
+    )
+    print(f"level cells: {n}, rms {np.sqrt(np.mean(r[:n] ** 2)):.1f} %, max |error| {np.max(np.abs(r[:n])):.1f} %")
+    for grade in sorted({g for g, *_ in factors}):
+        block = np.array([e for (g, *_), e in zip(factors, r[n:], strict=True) if g == grade])
+        print(
+            f"grade factors at {100 * grade:+.1f} %: {block.size}, rms {np.sqrt(np.mean(block**2)):.1f} %, max |error| {np.max(np.abs(block)):.1f} %"
+        )
+    for ((V, ramp), _), e in zip(level.items(), r[:n], strict=True):
         print(f"  level  V={V} mph  V'={ramp!s:>4}: {e:+5.1f} %")
-    for (V, ramp, *_), e in zip(factors, r[n:], strict=True):
-        print(f"  factor V={V} mph  V'={ramp!s:>4}: {e:+5.1f} %")
+    for (g, V, ramp, _), e in zip(factors, r[n:], strict=True):
+        print(f"  factor {100 * g:+.1f} % V={V} mph  V'={ramp!s:>4}: {e:+5.1f} %")
 
     car = load_vehicle("passenger-car")
     capability = car.physical
     assert capability is not None
-    top = max(v for _, _, v, _, _ in cells)
+    top = max(merge.values()) * speed
     speeds = np.linspace(0.0, top, 200)
-    chosen = alpha - beta * speeds - kappa * STANDARD_GRAVITY * 0.04
-    headroom = capability.acceleration(speeds, 0.04) - chosen
-    print(
-        f"capability headroom on a 4 % upgrade up to {top:.1f} m/s: min {headroom.min():.2f} m/s^2 (> 0: cap never binds)"
-    )
+    for grade in (0.055, -0.055):
+        chosen = np.array([np.nan])
+        if grade > 0:
+            chosen = np.maximum(
+                alpha - beta * speeds - kappa_up * STANDARD_GRAVITY * grade, floor * (alpha - beta * speeds)
+            )
+        else:
+            chosen = alpha - beta * speeds + kappa_down * STANDARD_GRAVITY * -grade
+        headroom = capability.acceleration(speeds, grade) - chosen
+        print(
+            f"capability headroom on {100 * grade:+.1f} % up to {top:.1f} m/s: min {headroom.min():.2f} m/s^2 (> 0: cap never binds)"
+        )
 
 
 if __name__ == "__main__":
