@@ -468,12 +468,21 @@ def _assumptions(
         )
         for parameter in v.parameters:
             items.append(Assumption(f"{v.id}: {parameter.name}", parameter.text, parameter.source))
-    if site.merge.mainline_flow is not None:
+    if site.merge.mainline_flow is not None and not 2 <= site.lanes <= 5:
+        items.append(
+            Assumption(
+                "Merge-area method",
+                f"not applied: {site.lanes} lane{'s' if site.lanes > 1 else ''} in the direction of travel",
+                "the capacity manual's merge-segment method covers 2 to 5 lanes in one direction (chapter 14)",
+            )
+        )
+    elif site.merge.mainline_flow is not None:
         m = site.merge
         items += [
             Assumption(
                 "Merge-area method",
-                "capacity-manual merge segment: P_FM, v12, influence-area density, LOS and capacity checks",
+                "capacity-manual merge segment: P_FM, v12 with the lane-distribution checks, influence-area"
+                " density, LOS and capacity checks" + ("; lane 5 flow taken off first" if site.lanes == 5 else ""),
                 "Highway Capacity Manual 6th/7th ed., chapter 14 (equations as reproduced in REFERENCES.md section 6, CONFIRMED)",
             ),
             Assumption(

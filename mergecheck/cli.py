@@ -292,8 +292,8 @@ def _flow_pc_h(text: str, field: str, heavy: float, terrain: str, phf: float) ->
 
 
 def _merge_area(args: argparse.Namespace, out: Console, err: Console) -> int:
-    if not 2 <= args.lanes <= 4:
-        raise InputError("command line", "--lanes", "the manual's merge method covers 2 to 4 lanes per direction")
+    if not 2 <= args.lanes <= 5:
+        raise InputError("command line", "--lanes", "the manual's merge method covers 2 to 5 lanes in one direction")
     if args.lanes_downstream is not None and not args.lanes <= args.lanes_downstream <= args.lanes + 2:
         raise InputError("command line", "--lanes-downstream", "must be at least --lanes and at most two more")
     if not 0 <= args.heavy_vehicles <= 1:

@@ -12,7 +12,7 @@ Highway Capacity Manual, 6th ed. (2016) / 7th ed. (2022), Chapter 14
     P_{FM} = 0.5775 + 0.000028\\, L_A \\quad \\text{(6-lane)}                  (14-3)
 
     P_{FM} = 0.2178 - 0.000125\\, v_R + 0.01115\\, L_A / S_{FR}
-             \\quad \\text{(8-lane; last term dropped when } v_F/S_{FR} > 72)
+             \\quad \\text{(8-lane)}                                          (14-4)
 
     D_R = 5.475 + 0.00734\\, v_R + 0.0078\\, v_{12} - 0.00627\\, L_A          (14-22)
 
@@ -25,10 +25,26 @@ pc/h/ln at free-flow speeds of 70+, 65, 60 and 55 mi/h), the maximum
 desirable flow entering the influence area (4600 pc/h), and the ramp roadway.
 Demand in passenger cars: v = V / (PHF f_HV), f_HV = 1 / (1 + P_T (E_T - 1)).
 
+Lane-distribution (reasonableness) checks, three or more lanes in the
+direction: the average flow in the n_o outer lanes (lane 3, or lanes 3 and 4),
+v_o = (v_F - v12) / n_o, must not exceed 2,700 pc/h/ln nor 1.5 times the
+average flow in lanes 1 and 2 (v12 / 2). Where either binds, v12 is raised to
+what the binding rule allows: v12 = v_F - 2700 n_o, or
+v12 = v_F / (1 + 0.75 n_o); the larger of the two and the original v12 is
+used, which is the same as raising v12 until both rules hold. Five lanes in
+the direction: the flow in lane 5 is taken off first as a share of v_F (0.198
+at v_F >= 8,500 veh/h, 0.174 from 7,500, 0.160 from 6,500, 0.112 from 5,500,
+0.053 below) and the 8-lane method is applied to the rest. One lane in the
+direction is outside the method.
+
+The 8-lane equation is used without the "v_F / S_FR > 72" condition that an
+earlier version of this module applied: it could not be confirmed in the
+manual (shared REFERENCES.md section 6), and the published Guidebook case
+reproduced here does not depend on it.
 Equation numbers and values as reproduced in a university course text of the
-7th edition (shared REFERENCES.md section 6, CONFIRMED). The manual's checks
-of the distribution of flow in the outer lanes are not applied (not
-confirmed here). Ramp roadway capacities are from memory of HCM Exhibit 14-12.
+7th edition (shared REFERENCES.md section 6, CONFIRMED). The lane-distribution
+checks (HCM 6th ed. Eqs. 14-12 to 14-14) and the lane-5 shares (the manual's lane-5 exhibit for five-lane directions) are from memory. Ramp roadway capacities are from
+memory of HCM Exhibit 14-12.
 """
 
 from __future__ import annotations
@@ -49,6 +65,12 @@ _RAMP_CAPACITY = ((50.0, (2200.0, 4400.0)), (40.0, (2100.0, 4100.0)), (30.0, (20
 _RAMP_20_30 = (1900.0, 3500.0)
 _SLOW_RAMP = (1800.0, 3200.0)
 MI_PER_KM = 0.621371192
+OUTER_LANE_MAX = 2700.0
+"""Highest average flow in the outer lanes the lane-distribution check allows. [pc/h/ln]"""
+OUTER_LANE_RATIO = 1.5
+"""Highest ratio of outer-lane average flow to the average of lanes 1 and 2. [-]"""
+_LANE_FIVE_SHARE = ((8500.0, 0.198), (7500.0, 0.174), (6500.0, 0.160), (5500.0, 0.112), (0.0, 0.053))
+"""(v_F at least [veh/h], share of v_F in lane 5) for five-lane directions, from memory of the HCM."""
 
 Los = Literal["A", "B", "C", "D", "E", "F"]
 
@@ -76,7 +98,13 @@ class MergeArea:
     acceleration_length_ft: float
     """L_A, including the taper. [ft]"""
     p_fm: float
+    """P_FM from the manual's equation, before any lane-distribution adjustment. [-]"""
     v12_pc_h: float
+    """Flow in lanes 1 and 2 approaching the merge, after the lane-distribution checks. [pc/h]"""
+    lane_five_pc_h: float = 0.0
+    """Flow taken off in lane 5 of a five-lane direction. [pc/h]"""
+    lane_distribution: str = ""
+    """Which lane-distribution rule raised v12, or empty when none binds."""
     vr12_pc_h: float
     density_pc_mi_ln: float
     los: Los
@@ -133,21 +161,46 @@ def ramp_capacity(ramp_free_flow_speed_mph: float, ramp_lanes: int = 1) -> float
     return row[0] if ramp_lanes == 1 else row[1]
 
 
-def merge_influence_share(
-    lanes: int, mainline_pc_h: float, ramp_pc_h: float, acceleration_length_ft: float, ramp_ffs_mph: float
-) -> float:
-    """P_FM, the share of approaching mainline flow in lanes 1 and 2 (HCM Eqs. above)."""
+def merge_influence_share(lanes: int, ramp_pc_h: float, acceleration_length_ft: float, ramp_ffs_mph: float) -> float:
+    """P_FM, the share of approaching mainline flow in lanes 1 and 2 (HCM Eqs. above; five lanes: Eq. 14-4 on
+    the flow left after lane 5)."""
     match lanes:
         case 2:
             return 1.0
         case 3:
             return 0.5775 + 0.000028 * acceleration_length_ft  # Eq. 14-3
-        case 4:
-            share = 0.2178 - 0.000125 * ramp_pc_h
-            if mainline_pc_h / ramp_ffs_mph <= 72:
-                share += 0.01115 * acceleration_length_ft / ramp_ffs_mph
-            return share
-    raise ValueError(f"the HCM merge method covers 2 to 4 lanes per direction, not {lanes}")
+        case 4 | 5:
+            return 0.2178 - 0.000125 * ramp_pc_h + 0.01115 * acceleration_length_ft / ramp_ffs_mph  # Eq. 14-4
+    raise ValueError(f"the HCM merge method covers 2 to 5 lanes in one direction, not {lanes}")
+
+
+def lane_five_flow(mainline_pc_h: float) -> float:
+    """Flow in lane 5 of a five-lane direction, a share of v_F by its size (from memory of the HCM). [pc/h]"""
+    share = next(s for lower, s in _LANE_FIVE_SHARE if mainline_pc_h >= lower)
+    return share * mainline_pc_h
+
+
+def checked_lanes_1_2(lanes: int, mainline_pc_h: float, v12_pc_h: float) -> tuple[float, str]:
+    """v12 after the lane-distribution checks (module docstring), and which rule raised it ('' if none).
+
+    Examples
+    --------
+    Four lanes, v_F 6,000 pc/h, P_FM v12 557 pc/h (issue 17's case, by hand): the outer lanes would carry
+    2,722 pc/h/ln, over both rules; 1.5 times lanes 1-2 binds hardest, v12 = 6000 / 2.5 = 2,400 pc/h.
+
+    >>> checked_lanes_1_2(4, 6000.0, 557.0)
+    (2400.0, 'outer lanes at most 1.5 times the average of lanes 1 and 2')
+    """
+    outer = lanes - 2
+    if outer <= 0:
+        return v12_pc_h, ""
+    by_cap = mainline_pc_h - OUTER_LANE_MAX * outer
+    by_ratio = mainline_pc_h / (1.0 + OUTER_LANE_RATIO / 2.0 * outer)
+    if v12_pc_h >= max(by_cap, by_ratio):
+        return v12_pc_h, ""
+    if by_ratio >= by_cap:
+        return by_ratio, "outer lanes at most 1.5 times the average of lanes 1 and 2"
+    return by_cap, f"outer lanes at most {OUTER_LANE_MAX:.0f} pc/h/ln"
 
 
 def breaks_down(downstream: CapacityCheck, ramp_roadway: CapacityCheck) -> bool:
@@ -182,15 +235,18 @@ def merge_area(
     --------
     HCM Applications Guidebook, Case 4 Problem 2 (HCM 2000 method, published values): 4 lanes per
     direction, v_F = 1109, v_R = 848 pc/h, L_A = 500 ft, S_FR = 45 mi/h gives P_FM 0.24, v12 261,
-    D_R 10.6 pc/mi/ln, LOS B.
+    D_R 10.6 pc/mi/ln, LOS B. The later editions' lane-distribution check raises v12 to 1109 / 2.5
+    (the HCM 2000 method had no such check): D_R 12.0, still LOS B.
 
     >>> result = merge_area(lanes=4, mainline_pc_h=1109, ramp_pc_h=848, acceleration_length_ft=500,
     ...                     free_flow_speed_mph=55, ramp_free_flow_speed_mph=45)
-    >>> round(result.p_fm, 2), round(result.v12_pc_h), round(result.density_pc_mi_ln, 1), result.los
-    (0.24, 261, 10.6, 'B')
+    >>> round(result.p_fm, 2), round(1109 * result.p_fm), round(result.v12_pc_h, 1), round(result.density_pc_mi_ln, 1), result.los
+    (0.24, 261, 443.6, 12.0, 'B')
     """
-    p_fm = merge_influence_share(lanes, mainline_pc_h, ramp_pc_h, acceleration_length_ft, ramp_free_flow_speed_mph)
-    v12 = mainline_pc_h * p_fm  # Eq. 14-2
+    p_fm = merge_influence_share(lanes, ramp_pc_h, acceleration_length_ft, ramp_free_flow_speed_mph)
+    lane_five = lane_five_flow(mainline_pc_h) if lanes == 5 else 0.0
+    approaching = mainline_pc_h - lane_five
+    v12, binding = checked_lanes_1_2(min(lanes, 4), approaching, approaching * p_fm)  # Eq. 14-2, then the checks
     vr12 = v12 + ramp_pc_h
     density = 5.475 + 0.00734 * ramp_pc_h + 0.0078 * v12 - 0.00627 * acceleration_length_ft  # Eq. 14-22
     down_lanes = lanes_downstream or lanes
@@ -209,6 +265,8 @@ def merge_area(
         acceleration_length_ft=acceleration_length_ft,
         p_fm=p_fm,
         v12_pc_h=v12,
+        lane_five_pc_h=lane_five,
+        lane_distribution=binding,
         vr12_pc_h=vr12,
         density_pc_mi_ln=max(density, 0.0),
         los=level_of_service(density, breaks_down(downstream, ramp)),

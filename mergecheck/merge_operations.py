@@ -67,7 +67,8 @@ class MergeOperations:
 
 
 def merge_operations(site: Site, speeds_at_lane_end: dict[str, float]) -> MergeOperations | None:
-    """The merge-area check for a site; None when the site gives no mainline flow or the lane count is outside 2-4.
+    """The merge-area check for a site; None when the site gives no mainline flow or has one lane, or more than
+    five, in the direction (outside the manual's method; the site's assumptions say so).
 
     Parameters
     ----------
@@ -75,7 +76,7 @@ def merge_operations(site: Site, speeds_at_lane_end: dict[str, float]) -> MergeO
         Each design vehicle's speed at the end of the full-width lane. [m/s]
     """
     m = site.merge
-    if m.mainline_flow is None or not 2 <= site.lanes <= 4:
+    if m.mainline_flow is None or not 2 <= site.lanes <= 5:
         return None
     e_t = TRUCK_EQUIVALENT[m.terrain]
     mainline_pc = passenger_car_flow(m.mainline_flow * 3600, m.mainline_heavy_vehicles, e_t, m.peak_hour_factor)

@@ -8,7 +8,7 @@ from typing import Any
 import numpy as np
 import pytest
 
-from mergecheck.merge_area import level_of_service, merge_influence_share, passenger_car_flow
+from mergecheck.merge_area import level_of_service, merge_area, merge_influence_share, passenger_car_flow
 from mergecheck.shockwave import Greenshields, Triangular, queue_history, shock_speed
 from mergecheck.units import parse_quantity
 
@@ -16,15 +16,21 @@ from mergecheck.units import parse_quantity
 def test_guidebook_case_four_lanes(cli: Any) -> None:
     """HCM Applications Guidebook, Case 4 Problem 2 (REFERENCES.md section 6, CONFIRMED): 4 lanes per
     direction, vF 1109, vR 848 pc/h, LA 500 ft, FFS 55, ramp FFS 45 mph: PFM 0.24, v12 261, vR12 1109,
-    DR 10.6, LOS B. Checked to the rounding shown."""
+    DR 10.6, LOS B. Checked to the rounding shown.
+
+    The Guidebook works the HCM 2000 method, which had no lane-distribution checks; the later editions'
+    check (outer lanes at most 1.5 times the average of lanes 1 and 2, FROM MEMORY) binds here: by hand
+    v12 = 1109 / 2.5 = 443.6, DR = 5.475 + 6.224 + 3.460 - 3.135 = 12.02, still LOS B."""
     run = cli("merge-area", "--lanes", "4", "--mainline-flow", "1109 pc/h", "--ramp-flow", "848 pc/h",
               "--accel-length", "500 ft", "--ffs", "55 mph", "--ramp-ffs", "45 mph", "--json")  # fmt: skip
     assert run.code == 0, run.stderr
     doc = run.json()
     assert round(doc["p_fm"], 2) == 0.24
-    assert round(doc["v12_pc_h"]) == 261
-    assert round(doc["vr12_pc_h"]) == 1109
-    assert round(doc["density_pc_mi_ln"], 1) == 10.6
+    assert round(1109 * doc["p_fm"]) == 261  # the Guidebook's v12, before the check
+    density_without_check = 5.475 + 0.00734 * 848 + 0.0078 * 1109 * doc["p_fm"] - 0.00627 * 500
+    assert round(density_without_check, 1) == 10.6 and round(261 + 848) == 1109
+    assert doc["v12_pc_h"] == pytest.approx(443.6) and doc["v12_raised_by"]
+    assert doc["density_pc_mi_ln"] == pytest.approx(12.02, abs=0.005)
     assert doc["los"] == "B"
 
 
@@ -92,11 +98,64 @@ def test_level_of_service_boundaries(density: float, los: str) -> None:
     assert level_of_service(density, True) == "F"
 
 
-def test_eight_lane_share_drops_its_last_term_at_high_ratio() -> None:
-    """8-lane PFM: the L_A/S_FR term applies only when vF/S_FR <= 72."""
-    low = merge_influence_share(4, 45 * 72, 500, 1000, 45)
-    high = merge_influence_share(4, 45 * 72 + 1, 500, 1000, 45)
-    assert low - high == pytest.approx(0.01115 * 1000 / 45)
+def test_eight_lane_share_has_no_flow_condition() -> None:
+    """HCM Eq. 14-4 (REFERENCES.md section 6, CONFIRMED): P_FM = 0.2178 - 0.000125 vR + 0.01115 LA/SFR. The
+    'last term dropped when vF/SFR > 72' condition was not confirmed and is gone; P_FM no longer takes vF."""
+    assert merge_influence_share(4, 500, 1000, 45) == pytest.approx(0.2178 - 0.000125 * 500 + 0.01115 * 1000 / 45)
+
+
+def test_four_lane_outer_lanes_are_held_to_the_checks(cli: Any) -> None:
+    """Issue 17's case, by hand with the manual's lane-distribution checks (HCM 6th ed. Eqs. 14-12 to 14-14, FROM
+    MEMORY): 4 lanes, vF 6000, vR 1000 pc/h, LA 1000 ft, SFR 45 mph. P_FM 0.3406 gives v12 2044 and 1978 pc/h/ln
+    in lanes 3-4, above 1.5 x 2044/2 = 1533: v12 = 6000/2.5 = 2400; DR = 5.475 + 7.34 + 18.72 - 6.27 = 25.27
+    pc/mi/ln, LOS C. Without the checks the method left 2,700 pc/h/ln in the outer lanes (v12 557, LOS B)."""
+    doc = cli("merge-area", "--lanes", "4", "--mainline-flow", "6000 pc/h", "--ramp-flow", "1000 pc/h",
+              "--accel-length", "1000 ft", "--ffs", "65 mph", "--ramp-ffs", "45 mph", "--json").json()  # fmt: skip
+    assert doc["v12_pc_h"] == pytest.approx(2400.0, abs=0.01)
+    assert doc["density_pc_mi_ln"] == pytest.approx(25.265, abs=0.001) and doc["los"] == "C"
+    assert doc["v12_raised_by"] == "outer lanes at most 1.5 times the average of lanes 1 and 2"
+
+
+def test_three_lane_outer_lane_capped_at_2700() -> None:
+    """By hand: 3 lanes, vF 7000, vR 500 pc/h, LA 500 ft: P_FM 0.5915, v12 4140.5 leaves 2859.5 pc/h in lane 3,
+    over the 2,700 pc/h/ln cap (and under 1.5 x 4140.5/2 = 3105): v12 = 7000 - 2700 = 4300 pc/h."""
+    area = merge_area(lanes=3, mainline_pc_h=7000, ramp_pc_h=500, acceleration_length_ft=500,
+                      free_flow_speed_mph=65, ramp_free_flow_speed_mph=45)  # fmt: skip
+    assert area.v12_pc_h == pytest.approx(4300.0) and area.lane_distribution == "outer lanes at most 2700 pc/h/ln"
+
+
+def test_checks_leave_a_reasonable_distribution_alone() -> None:
+    """The Guidebook's 3-lane case (vF 5333): lane 3 carries 2179 pc/h, under both rules: v12 stays vF P_FM."""
+    area = merge_area(lanes=3, mainline_pc_h=5333, ramp_pc_h=2111, acceleration_length_ft=500,
+                      free_flow_speed_mph=55, ramp_free_flow_speed_mph=45)  # fmt: skip
+    assert area.v12_pc_h == pytest.approx(5333 * (0.5775 + 0.000028 * 500)) and area.lane_distribution == ""
+
+
+def test_five_lane_direction_takes_lane_five_off_first(cli: Any) -> None:
+    """Five lanes (HCM lane-5 shares, FROM MEMORY: 0.160 of vF from 6,500 to 7,499 pc/h), by hand: vF 7000 leaves
+    1120 pc/h in lane 5; the 8-lane method on 5880 pc/h gives v12 2002.6 and 1938.7 pc/h/ln in lanes 3-4, above
+    1.5 x 2002.6/2: v12 = 5880/2.5 = 2352 pc/h. Before, a five-lane direction had no merge-area result at all."""
+    doc = cli("merge-area", "--lanes", "5", "--mainline-flow", "7000 pc/h", "--ramp-flow", "1000 pc/h",
+              "--accel-length", "1000 ft", "--ffs", "65 mph", "--ramp-ffs", "45 mph", "--json").json()  # fmt: skip
+    assert doc["lane_5_pc_h"] == pytest.approx(1120.0) and doc["v12_pc_h"] == pytest.approx(2352.0)
+
+
+def test_one_lane_direction_says_why_there_is_no_merge_area(cli: Any, repo: Path, tmp_path: Path) -> None:
+    """The manual's merge method covers 2 to 5 lanes in one direction: one lane is refused on the command line
+    and, in a site check, named in the assumptions instead of leaving the section out silently."""
+    run = cli("merge-area", "--lanes", "1", "--mainline-flow", "1000 pc/h", "--ramp-flow", "500 pc/h",
+              "--accel-length", "800 ft", "--ffs", "65 mph", "--ramp-ffs", "45 mph")  # fmt: skip
+    assert run.code == 2 and "--lanes" in run.stderr and "2 to 5 lanes" in run.stderr
+    site = (repo / "examples" / "willowmere-level.yaml").read_text().replace("lanes: 2", "lanes: 1")
+    site = site.replace("adjacent_lane_flow: 500 veh/h", "adjacent_lane_flow: 500 veh/h").replace(
+        "1500 veh/h", "900 veh/h"
+    )
+    path = tmp_path / "one-lane.yaml"
+    path.write_text(site)
+    doc = cli("check", path, "--json").json()
+    assert doc["merge_area"] is None
+    (note,) = [a for a in doc["assumptions"] if a["name"] == "Merge-area method"]
+    assert note["value"].startswith("not applied: 1 lane")
 
 
 def test_shock_speed_hand_computation(cli: Any) -> None:

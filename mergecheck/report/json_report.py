@@ -200,6 +200,8 @@ def area_json(area: MergeArea) -> dict[str, Any]:
         "acceleration_length_ft": _number(area.acceleration_length_ft, 3),
         "p_fm": _number(area.p_fm),
         "v12_pc_h": _number(area.v12_pc_h, 3),
+        "v12_raised_by": area.lane_distribution or None,
+        "lane_5_pc_h": _number(area.lane_five_pc_h, 3),
         "vr12_pc_h": _number(area.vr12_pc_h, 3),
         "density_pc_mi_ln": _number(area.density_pc_mi_ln, 4),
         "density_pc_km_ln": _number(area.density_pc_km_ln, 4),

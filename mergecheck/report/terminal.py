@@ -331,6 +331,10 @@ def area_view(area: MergeArea) -> RenderableType:
     )
     table.add_row("P_FM", f"{area.p_fm:.4f}")
     table.add_row("v12", f"{area.v12_pc_h:.0f} pc/h")
+    if area.lane_distribution:
+        table.add_row("v12 raised by", area.lane_distribution)
+    if area.lane_five_pc_h:
+        table.add_row("Lane 5 (taken off first)", f"{area.lane_five_pc_h:.0f} pc/h")
     table.add_row("Entering the influence area", f"{area.vr12_pc_h:.0f} pc/h")
     for check in area.checks:
         state = Text("exceeded", style="bold red") if check.exceeded else Text("ok", style="green")
