@@ -324,8 +324,11 @@ def _merge_area(args: argparse.Namespace, out: Console, err: Console) -> int:
 
 def _state(flow_text: str, density_text: str | None, speed_text: str | None, prefix: str) -> TrafficState:
     flow = parse_quantity(flow_text, "flow", source="command line", field=f"--{prefix}")
-    if not 0 < flow <= 20_000 / 3600:
-        raise InputError("command line", f"--{prefix}", "must be positive and at most 20,000 veh/h")
+    if flow == 0 and prefix == "discharge" and density_text is not None:
+        pass  # a full closure: nothing discharges from a queue at its jam density
+    elif not 0 < flow <= 20_000 / 3600:
+        rule = "must be positive" if prefix == "arrive" else "must be positive (or 0 with a density, a full closure)"
+        raise InputError("command line", f"--{prefix}", f"{rule} and at most 20,000 veh/h")
     if density_text is not None:
         density = parse_quantity(density_text, "density", source="command line", field=f"--{prefix}-density")
         if not 0 < density <= 1.0:

@@ -147,8 +147,26 @@ class QueueGrowth:
         return max(0.0, -self.shock_speed) * self.duration
 
     @property
-    def stored_after(self) -> float:
-        """Vehicles gained by the queue region after the duration. [veh]"""
+    def joined_after(self) -> float:
+        """Vehicles that joined the queue (crossed its moving back) in the duration, (q_A - k_A w) t. [veh]
+
+        Examples
+        --------
+        By hand: 1,800 veh/h at 90 km/h (20 veh/km) stopped by a full closure (no discharge, jam density
+        150 veh/km): w = (0 - 1800) / (150 - 20) = -13.85 km/h; in one hour the queue reaches 13.85 km and
+        holds 150 x 13.85 = 2,077 vehicles, all of which joined it; 1,800 more than the road held before.
+
+        >>> closure = queue_growth(TrafficState(0.5, 0.02), TrafficState(0.0, 0.15), 3600.0)
+        >>> round(closure.length_after), round(closure.joined_after), round(closure.excess_after)
+        (13846, 2077, 1800)
+        """
+        if self.shock_speed >= 0:
+            return 0.0
+        return (self.arriving.flow - self.arriving.density * self.shock_speed) * self.duration
+
+    @property
+    def excess_after(self) -> float:
+        """Vehicles on the queued stretch in excess of what it held before, (q_A - q_Q) t. [veh]"""
         return max(0.0, self.growth) * self.duration
 
 

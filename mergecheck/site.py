@@ -275,6 +275,8 @@ class MergeAreaSettings:
     """Per lane. [veh/m]"""
     demand_profile: tuple[tuple[float, float], ...]
     """Periods of (duration [s], share of the design-hour demand), in order."""
+    demand_profile_given: bool = False
+    """The periods are the user's (taken as they are), not the peak-and-after default."""
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -579,6 +581,7 @@ def _merge_settings(
         ramp_lanes=m.ramp_lanes,
         jam_density=jam,
         demand_profile=profile,
+        demand_profile_given=m.demand_profile is not None,
     )
 
 

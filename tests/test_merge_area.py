@@ -28,7 +28,7 @@ def test_guidebook_case_four_lanes(cli: Any) -> None:
     assert round(doc["p_fm"], 2) == 0.24
     assert round(1109 * doc["p_fm"]) == 261  # the Guidebook's v12, before the check
     density_without_check = 5.475 + 0.00734 * 848 + 0.0078 * 1109 * doc["p_fm"] - 0.00627 * 500
-    assert round(density_without_check, 1) == 10.6 and round(261 + 848) == 1109
+    assert round(density_without_check, 1) == 10.6 and (261 + 848) == 1109
     assert doc["v12_pc_h"] == pytest.approx(443.6) and doc["v12_raised_by"]
     assert doc["density_pc_mi_ln"] == pytest.approx(12.02, abs=0.005)
     assert doc["los"] == "B"
@@ -235,7 +235,11 @@ def test_site_merge_area_and_breakdown(cli: Any, repo: Path) -> None:
         assert key in area
     assert area["breaks_down"] is True and area["los"] == "F"
     assert area["shock_speed_m_s"] < 0 and area["queue_growth_veh_h"] > 0
-    assert area["queue_length_m_after_1h"] == pytest.approx(-area["shock_speed_m_s"] * 3600, rel=1e-6)
+    # The peak-hour factor applies to the peak 15 minutes only (HCM: V/PHF is a 15-minute rate). The hourly
+    # demand, 0.94 x 7245.5 = 6811 pc/h, is below the 6871 pc/h downstream capacity: the queue that the peak
+    # 15 minutes build clears within the hour. Before, the peak rate was held all hour and the queue reached 7.7 km.
+    assert area["queue_growth_veh_h"] > 0 and area["queue_clears_after_s"] < 3600
+    assert area["queue_length_m_after_1h"] == 0.0
     assert area["acceleration_length_m"] == pytest.approx(150 + 75)  # the manual's L_A includes the taper
     fine = cli("check", repo / "examples" / "willowmere-level.yaml", "--json").json()["merge_area"]
     assert fine["breaks_down"] is False and "shock_speed_m_s" not in fine
@@ -250,7 +254,9 @@ def test_slow_trucks_cost_capacity(cli: Any, repo: Path) -> None:
 
 
 def test_demand_profile_times_the_clearing(cli: Any, repo: Path, tmp_path: Path) -> None:
-    """The lower the demand after the peak, the sooner the queue clears (kinematic waves move faster)."""
+    """The lower the demand after the peak, the sooner the queue clears (kinematic waves move faster). A profile
+    the user gives is taken as shares of the hourly volume, without the peak-hour factor: an hour at 1.1 of it
+    exceeds the downstream capacity."""
     import yaml
 
     clears = []
@@ -258,7 +264,7 @@ def test_demand_profile_times_the_clearing(cli: Any, repo: Path, tmp_path: Path)
         site = yaml.safe_load((repo / "examples" / "harbour-street-constrained.yaml").read_text())
         site["policy"] = str(repo / "examples" / "agency-policy-table.yaml")
         site["merge_area"] = {
-            "demand_profile": [{"duration": "1 h", "share": 1.0}, {"duration": "5 h", "share": share}]
+            "demand_profile": [{"duration": "1 h", "share": 1.1}, {"duration": "5 h", "share": share}]
         }
         site_file = tmp_path / "site.yaml"
         site_file.write_text(yaml.safe_dump(site))
@@ -270,3 +276,18 @@ def test_demand_profile_times_the_clearing(cli: Any, repo: Path, tmp_path: Path)
     site_file.write_text(yaml.safe_dump(site))
     bad = cli("check", site_file)
     assert bad.code == 2 and "merge_area.demand_profile.0.duration" in bad.stderr
+
+
+def test_queue_accepts_a_full_closure(cli: Any) -> None:
+    """By hand (issue 17's case): 1,800 veh/h at 90 km/h (20 veh/km) stopped by a full closure, jam density
+    150 veh/km: w = -1800/130 = -13.846 km/h; after one hour the queue is 13,846 m long and holds
+    150 x 13.846 = 2,077 vehicles, all of which joined it, 1,800 more than the same road held before."""
+    doc = cli("queue", "--arrive", "1800 veh/h", "--arrive-speed", "90 km/h", "--discharge", "0 veh/h",
+              "--discharge-density", "150 veh/km", "--duration", "1 h", "--json").json()  # fmt: skip
+    assert doc["shock_speed_m_s"] * 3.6 == pytest.approx(-1800 / 130, rel=1e-6)  # JSON keeps 6 decimals
+    assert doc["queue_length_m"] == pytest.approx(13846.154, abs=1e-3)
+    assert doc["vehicles_joined_queue"] == pytest.approx(150 * 1800 / 130, rel=1e-9)
+    assert doc["vehicles_in_excess"] == pytest.approx(1800.0, rel=1e-9)
+    refused = cli("queue", "--arrive", "1800 veh/h", "--arrive-speed", "90 km/h", "--discharge", "0 veh/h",
+                  "--discharge-speed", "5 km/h", "--duration", "1 h")  # fmt: skip
+    assert refused.code == 2 and "--discharge" in refused.stderr

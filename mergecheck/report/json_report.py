@@ -221,15 +221,16 @@ def area_json(area: MergeArea) -> dict[str, Any]:
     }
 
 
-def queue_json(queue: QueueGrowth, veh_per_unit: float = 1.0) -> dict[str, Any]:
+def queue_json(queue: QueueGrowth) -> dict[str, Any]:
     """Shock-wave and queue figures between two states (the ``queue --json`` document)."""
     return {
         "cautions": list(CAUTIONS),
         "shock_speed_m_s": _number(queue.shock_speed),
-        "queue_growth_veh_h": _number(queue.growth * 3600 * veh_per_unit, 3),
+        "queue_growth_veh_h": _number(queue.growth * 3600, 3),
         "duration_s": _number(queue.duration, 3),
         "queue_length_m": _number(queue.length_after, 3),
-        "vehicles_stored": _number(queue.stored_after * veh_per_unit, 3),
+        "vehicles_joined_queue": _number(queue.joined_after, 3),
+        "vehicles_in_excess": _number(queue.excess_after, 3),
         "arriving": {
             "flow_veh_h": _number(queue.arriving.flow * 3600, 3),
             "density_veh_km": _number(queue.arriving.density * 1000, 4),
@@ -252,11 +253,11 @@ def merge_area_json(operations: MergeOperations | None) -> dict[str, Any] | None
         "capacity_lost_to_slow_trucks_pc_h": _number(operations.capacity_lost_pc_h, 3),
     }
     if operations.queue is not None:
-        queue = queue_json(operations.queue, operations.veh_per_pc_mainline)
+        queue = queue_json(operations.queue)
         document |= {
             "shock_speed_m_s": queue["shock_speed_m_s"],
             "queue_growth_veh_h": queue["queue_growth_veh_h"],
-            "queue_length_m_after_1h": _number(-min(operations.queue.shock_speed, 0.0) * 3600, 3),
+            "queue_length_m_after_1h": _number(operations.queue_length_after_hour, 3),
             "queue_clears_after_s": None if operations.history is None else _number(operations.history.clears_at, 1),
         }
     return document

@@ -154,8 +154,8 @@ def site_markdown(assessment: SiteAssessment, system: UnitSystem, exception: Des
             lines += [
                 "",
                 f"**Breakdown.** Demand exceeds the downstream capacity. The back of the queue moves upstream at "
-                f"{show(-queue.shock_speed, 'speed', system)}, the queue gains {queue.growth * 3600 * operations.veh_per_pc_mainline:.0f} veh/h, "
-                f"stretches {show(-queue.shock_speed * 3600, 'length', system)} after one hour, and clears {clears}.",
+                f"{show(-queue.shock_speed, 'speed', system)}, the queue gains {queue.growth * 3600:.0f} veh/h at the peak 15-minute rate, "
+                f"stretches {show(operations.queue_length_after_hour or 0.0, 'length', system)} after one hour, and clears {clears}.",
             ]
     if exception is not None:
         lines += _exception_lines(assessment, exception, system)

@@ -294,8 +294,8 @@ def merge_area_view(operations: MergeOperations, system: UnitSystem) -> Renderab
         table.add_row(
             Text("Breakdown", style="bold red"),
             f"queue back moves upstream at {show(-queue.shock_speed, 'speed', system)}, gains "
-            f"{queue.growth * 3600 * operations.veh_per_pc_mainline:.0f} veh/h; "
-            f"{show(-queue.shock_speed * 3600, 'length', system)} long after 1 h; clears {clears}",
+            f"{queue.growth * 3600:.0f} veh/h at the peak 15-minute rate; "
+            f"{show(operations.queue_length_after_hour or 0.0, 'length', system)} long after 1 h; clears {clears}",
         )
     return table
 
@@ -318,7 +318,8 @@ def queue_view(queue: QueueGrowth, system: UnitSystem) -> RenderableType:
     table.add_row("Queue gains", f"{queue.growth * 3600:.0f} veh/h")
     table.add_row(
         f"After {queue.duration / 60:.0f} min",
-        f"back of queue {show(queue.length_after, 'length', system)} upstream, {queue.stored_after:.0f} vehicles gained",
+        f"back of queue {show(queue.length_after, 'length', system)} upstream; {queue.joined_after:.0f} vehicles"
+        f" joined the queue, {queue.excess_after:.0f} more than the same road held before",
     )
     return with_cautions(table)
 
