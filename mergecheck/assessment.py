@@ -39,6 +39,7 @@ from .gap_acceptance import (
     monte_carlo_check,
 )
 from .headways import HeadwayModel, headway_model
+from .merge_area import COVERAGE, LANES_COVERED
 from .merge_operations import MergeOperations, merge_operations
 from .policy import PolicyTable, PolicyValue, initial_speed_for, load_policy, policy_minimum
 from .site import Site, SiteVehicle
@@ -468,12 +469,12 @@ def _assumptions(
         )
         for parameter in v.parameters:
             items.append(Assumption(f"{v.id}: {parameter.name}", parameter.text, parameter.source))
-    if site.merge.mainline_flow is not None and not 2 <= site.lanes <= 5:
+    if site.merge.mainline_flow is not None and site.lanes not in LANES_COVERED:
         items.append(
             Assumption(
                 "Merge-area method",
                 f"not applied: {site.lanes} lane{'s' if site.lanes > 1 else ''} in the direction of travel",
-                "the capacity manual's merge-segment method covers 2 to 5 lanes in one direction (chapter 14)",
+                f"{COVERAGE} (chapter 14)",
             )
         )
     elif site.merge.mainline_flow is not None:

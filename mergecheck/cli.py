@@ -25,7 +25,7 @@ from .exception import design_exception
 from .figures import vehicle_figures
 from .headways import HEADWAY_MODELS, headway_model, mean_wait
 from .inputs import ProfileFile, build_profile, check_grade, read_yaml, validated
-from .merge_area import merge_area, passenger_car_flow
+from .merge_area import COVERAGE, LANES_COVERED, merge_area, passenger_car_flow
 from .merge_operations import TRUCK_EQUIVALENT
 from .profile import VerticalProfile
 from .report import csv_report, json_report, markdown, terminal
@@ -292,8 +292,8 @@ def _flow_pc_h(text: str, field: str, heavy: float, terrain: str, phf: float) ->
 
 
 def _merge_area(args: argparse.Namespace, out: Console, err: Console) -> int:
-    if not 2 <= args.lanes <= 5:
-        raise InputError("command line", "--lanes", "the manual's merge method covers 2 to 5 lanes in one direction")
+    if args.lanes not in LANES_COVERED:
+        raise InputError("command line", "--lanes", COVERAGE)
     if args.lanes_downstream is not None and not args.lanes <= args.lanes_downstream <= args.lanes + 2:
         raise InputError("command line", "--lanes-downstream", "must be at least --lanes and at most two more")
     if not 0 <= args.heavy_vehicles <= 1:

@@ -65,6 +65,9 @@ _RAMP_CAPACITY = ((50.0, (2200.0, 4400.0)), (40.0, (2100.0, 4100.0)), (30.0, (20
 _RAMP_20_30 = (1900.0, 3500.0)
 _SLOW_RAMP = (1800.0, 3200.0)
 MI_PER_KM = 0.621371192
+LANES_COVERED = range(2, 6)
+"""Lanes in one direction the merge method covers."""
+COVERAGE = "the capacity manual's merge method covers 2 to 5 lanes in one direction"
 OUTER_LANE_MAX = 2700.0
 """Highest average flow in the outer lanes the lane-distribution check allows. [pc/h/ln]"""
 OUTER_LANE_RATIO = 1.5
@@ -171,7 +174,7 @@ def merge_influence_share(lanes: int, ramp_pc_h: float, acceleration_length_ft: 
             return 0.5775 + 0.000028 * acceleration_length_ft  # Eq. 14-3
         case 4 | 5:
             return 0.2178 - 0.000125 * ramp_pc_h + 0.01115 * acceleration_length_ft / ramp_ffs_mph  # Eq. 14-4
-    raise ValueError(f"the HCM merge method covers 2 to 5 lanes in one direction, not {lanes}")
+    raise ValueError(f"{COVERAGE}, not {lanes}")
 
 
 def lane_five_flow(mainline_pc_h: float) -> float:

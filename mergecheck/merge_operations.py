@@ -39,7 +39,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .merge_area import MergeArea, freeway_capacity_per_lane, merge_area, passenger_car_flow
+from .merge_area import LANES_COVERED, MergeArea, freeway_capacity_per_lane, merge_area, passenger_car_flow
 from .shockwave import QueueGrowth, QueueHistory, Triangular, queue_growth, queue_history
 from .site import MergeAreaSettings, Site
 
@@ -99,7 +99,7 @@ def merge_operations(site: Site, speeds_at_lane_end: dict[str, float]) -> MergeO
         Each design vehicle's speed at the end of the full-width lane. [m/s]
     """
     m = site.merge
-    if m.mainline_flow is None or not 2 <= site.lanes <= 5:
+    if m.mainline_flow is None or site.lanes not in LANES_COVERED:
         return None
     e_t = TRUCK_EQUIVALENT[m.terrain]
     mainline_pc = passenger_car_flow(m.mainline_flow * 3600, m.mainline_heavy_vehicles, e_t, m.peak_hour_factor)

@@ -219,18 +219,15 @@ def parse_vehicle(text: str, source: str) -> DesignVehicle:
     model: AccelerationModel
     if entry.model is PowerLimited:
         _forbid(source, data, capability=False, table=False)
-        body = {k: v for k, v in data.parameters.items() if k not in POWER_LIMITED_DRIVER}
-        driver = {k: v for k, v in data.parameters.items() if k in POWER_LIMITED_DRIVER}
-        physical = _power_limited(body, source, "parameters", records)
-        values = _read(driver, POWER_LIMITED_DRIVER, source, "parameters", records)
-        model = PowerLimited(physical, values["driver_share"])
+        physical, driver = _power_limited(data.parameters, source, "parameters", records, POWER_LIMITED_DRIVER)
+        model = PowerLimited(physical, driver["driver_share"])
     elif entry.model is LinearDecreasing:
         _forbid(source, data, capability=True, table=False)
         values = _read(
             data.parameters, LINEAR_DECREASING, source, "parameters", records, optional=("downgrade_response",)
         )
         if data.capability is not None:
-            physical = _power_limited(data.capability, source, "capability", records)
+            physical, _ = _power_limited(data.capability, source, "capability", records)
         model = LinearDecreasing(
             values["alpha"],
             values["beta"],
@@ -268,16 +265,23 @@ def _forbid(source: str, data: _ProfileFile, *, capability: bool, table: bool) -
 
 
 def _power_limited(
-    entries: dict[str, _Entry], source: str, block: str, records: list[ParameterRecord]
-) -> PowerLimitedVehicle:
+    entries: dict[str, _Entry],
+    source: str,
+    block: str,
+    records: list[ParameterRecord],
+    behaviour: dict[str, Spec] | None = None,
+) -> tuple[PowerLimitedVehicle, dict[str, float]]:
+    """The vehicle body from a block, and the values of the driver-behaviour parameters read beside it."""
     has_power, has_ratio = "power" in entries, "weight_to_power" in entries
     if has_power == has_ratio:
         raise InputError(source, f"{block}.power", "give exactly one of power and weight_to_power")
-    values = _read(entries, POWER_LIMITED, source, block, records, optional=("power", "weight_to_power"))
+    specs = POWER_LIMITED | (behaviour or {})
+    values = _read(entries, specs, source, block, records, optional=("power", "weight_to_power"))
+    driver = {name: values.pop(name) for name in behaviour or {}}
     power = values["power"] if has_power else values["mass"] / values["weight_to_power"]
     values.pop("weight_to_power", None)
     values["power"] = power
-    return PowerLimitedVehicle(**values)
+    return PowerLimitedVehicle(**values), driver
 
 
 def _read(
@@ -290,8 +294,7 @@ def _read(
 ) -> dict[str, Any]:
     unknown = sorted(set(entries) - set(specs))
     if unknown:
-        valid = [*specs, *POWER_LIMITED_DRIVER] if specs is POWER_LIMITED and block == "parameters" else specs
-        raise InputError(source, f"{block}.{unknown[0]}", f"unknown parameter; valid parameters: {', '.join(valid)}")
+        raise InputError(source, f"{block}.{unknown[0]}", f"unknown parameter; valid parameters: {', '.join(specs)}")
     values: dict[str, float] = {}
     for name, spec in specs.items():
         field = f"{block}.{name}"
