@@ -28,7 +28,7 @@ def test_guidebook_case_four_lanes(cli: Any) -> None:
     assert round(doc["p_fm"], 2) == 0.24
     assert round(1109 * doc["p_fm"]) == 261  # the Guidebook's v12, before the check
     density_without_check = 5.475 + 0.00734 * 848 + 0.0078 * 1109 * doc["p_fm"] - 0.00627 * 500
-    assert round(density_without_check, 1) == 10.6 and (261 + 848) == 1109
+    assert round(density_without_check, 1) == 10.6 and round(1109 * doc["p_fm"] + 848) == 1109  # vR12
     assert doc["v12_pc_h"] == pytest.approx(443.6) and doc["v12_raised_by"]
     assert doc["density_pc_mi_ln"] == pytest.approx(12.02, abs=0.005)
     assert doc["los"] == "B"
