@@ -201,6 +201,8 @@ def merge_setting(site: Site, entry: SiteVehicle) -> MergeSetting:
         reliability=site.gaps.reliability,
         flow=entry.share * site.ramp_flow,
         search_length=site.taper_end - site.convergence + RELIABILITY_SEARCH,  # as far as the trajectory
+        behaviour=site.gaps.behaviour,
+        taper_start=site.taper_start,
     )
 
 

@@ -51,6 +51,7 @@ import importlib.resources
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
+from typing import Literal
 
 import numpy as np
 import yaml
@@ -58,9 +59,12 @@ from numpy.typing import NDArray
 from scipy.fft import irfft, next_fast_len, rfft
 
 from .headways import HeadwayModel, mean_wait
+from .merge_behaviour import CELL, MergeBehaviour, Rules, rule_along, simulate, solve
 
 FloatArray = NDArray[np.float64]
 _NODES = 8  # Gauss-Hermite nodes over the log-normal critical gap (within 3e-5 of 24 nodes)
+ACTIVE_NODES = 5
+"""Gauss-Hermite nodes over the critical gap in the active model (lengths within about 1 % of 8 nodes)."""
 FIRST_REACH = 20.0
 """Stream time solved first; most drivers who merge at all have merged by then. [s]"""
 
@@ -440,6 +444,24 @@ class MergeReliability:
     """Vehicles of this class reaching the end of the taper without merging. [veh/h]"""
     mean_stopped_wait: float
     """Mean wait of a stopped vehicle for a gap (from-stop critical gap). [s]"""
+    model: Literal["active", "classic"] = "classic"
+    """Which merge behaviour the probability assumes (:mod:`mergecheck.merge_behaviour` or this module's)."""
+    unhurried: MergeCurve | None = None
+    """Active model: the probability on a lane imagined long enough, without the lane-end pressure and forced
+    merges; the length for the target reliability is read from it. None for the classic model or once dropped."""
+    check: ActiveCheck | None = None
+    """Active model: what a Monte Carlo of the same behaviour needs; None for the classic model or once dropped."""
+
+
+@dataclass(frozen=True, slots=True)
+class ActiveCheck:
+    """The site rule of one vehicle under the active model, and where a merge decided at a station is complete."""
+
+    rules: Rules
+    """One row: the rule at the site (lane-end pressure, forced merges)."""
+    station: FloatArray
+    crossing: FloatArray
+    """Station where a lane change decided at each of ``station`` is half done. [m]"""
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -462,6 +484,10 @@ class MergeSetting:
     reliability: float
     flow: float
     search_length: float = 3000.0
+    behaviour: MergeBehaviour | None = None
+    """The active model's parameters; None for the classic model."""
+    taper_start: float | None = None
+    """End of the full-width lane, where the lane-end pressure points (active model); default ``lane_end``. [m]"""
 
 
 def merge_reliability(
@@ -547,11 +573,13 @@ def merge_reliabilities(
     merged[eligible & np.array([s.headways is None for s in settings])] = 1.0
     solved = count.copy()
     last = tau[np.arange(len(settings)), count - 1]
-    # solve past the taper end (and at least FIRST_REACH); on to the search's end only for rows still short
+    active = [r for r, s in enumerate(settings) if s.behaviour is not None and s.headways is not None]
+    site_curves, checks = _active_curves(station, speed, count, x_a, settings, active)
+    # classic: solve past the taper end (and at least FIRST_REACH); on to the search's end only for rows still short
     pending = {
         r: min(float(last[r]), max(float(tau_taper_end[r]), FIRST_REACH))
         for r, s in enumerate(settings)
-        if eligible[r] and s.headways is not None
+        if eligible[r] and s.headways is not None and s.behaviour is None
     }
     while pending:
         asked = list(pending)
@@ -564,11 +592,18 @@ def merge_reliabilities(
                 continue
             solved[r] = int(np.searchsorted(tau[r, : count[r]], renewal.reach, side="right"))
             merged[r] = 1.0 - renewal.not_merged(tau[r], which)
+    for r, (unhurried_p, unhurried_n, unhurried_tau) in site_curves.items():
+        merged[r], solved[r], tau[r] = unhurried_p, unhurried_n, unhurried_tau
     probability = np.where(station >= start[:, None], merged, 0.0)
     probability = np.maximum.accumulate(np.clip(probability, 0.0, 1.0), axis=1)
+    length = _first_reaching(station, probability, solved, reliability) - convergence
+    unhurried = {r: MergeCurve(*(a[r, : solved[r]].copy() for a in (station, probability, tau))) for r in site_curves}
+    for r, check in checks.items():  # the site curve of the active model: lane-end pressure and forced merges
+        probability[r] = np.interp(station[r], check.crossing, check.site)
+        solved[r] = int(np.searchsorted(station[r, : count[r]], taper_end[r], side="right"))
+        tau[r] = check.tau
     by_lane_end = _at(station, probability, solved, lane_end)
     by_taper_end = _at(station, probability, solved, taper_end)
-    length = _first_reaching(station, probability, solved, reliability) - convergence
     tau_lane_end = _at(station, tau, solved, lane_end)
     results = []
     for r, setting in enumerate(settings):
@@ -587,9 +622,88 @@ def merge_reliabilities(
                 forced_merges_per_h=float(flow[r] * 3600 * max(0.0, by_taper_end[r] - by_lane_end[r])),
                 stops_per_h=float(flow[r] * 3600 * (1.0 - by_taper_end[r])),
                 mean_stopped_wait=0.0 if headways is None else stopped_wait(headways, setting.stop_critical_gap),
+                model="classic" if setting.behaviour is None else "active",
+                unhurried=unhurried.get(r),
+                check=None if r not in checks else ActiveCheck(checks[r].rules, checks[r].decided, checks[r].crossing),
             )
         )
     return results
+
+
+@dataclass(frozen=True, slots=True)
+class _SiteCurve:
+    rules: Rules
+    decided: FloatArray
+    crossing: FloatArray
+    site: FloatArray
+    """Probability of having merged by each of ``decided`` (decision stations), to be read at ``crossing``."""
+    tau: FloatArray
+
+
+def _active_curves(
+    station: FloatArray,
+    speed: FloatArray,
+    count: NDArray[np.intp],
+    x_a: FloatArray,
+    settings: Sequence[MergeSetting],
+    rows: list[int],
+) -> tuple[dict[int, tuple[FloatArray, int, FloatArray]], dict[int, _SiteCurve]]:
+    """The active model (:mod:`mergecheck.merge_behaviour`) for the given rows: per row, the unhurried
+    probability at its stations (shifted to where the lane change is half done) with the stations solved,
+    and the site curve."""
+    if not rows:
+        return {}, {}
+    built = []
+    for r in rows:
+        s = settings[r]
+        b = s.behaviour
+        assert b is not None and s.headways is not None
+        x, keep = np.unique(station[r, : count[r]], return_index=True)
+        v = speed[r, : count[r]][keep]
+        a = v * np.gradient(v, x) if x.size > 1 else np.zeros_like(x)  # the vehicle's own acceleration a(x)
+        crossing = x + 0.5 * b.lane_change_time * np.minimum(v, s.merge_speed)
+        lane_end = s.lane_end if s.taper_start is None else s.taper_start
+
+        # a vehicle still below the minimum merge speed at the end of the lane forces in there
+        forcing_from = lane_end if np.isnan(x_a[r]) else min(float(x_a[r]), lane_end)
+
+        def along(eligible: float, until: float, pressured: bool) -> tuple[FloatArray, tuple[FloatArray, ...]]:
+            return rule_along(
+                x, v, a, eligible=eligible, until=until, stream_speed=s.stream_speed, merge_speed=s.merge_speed,
+                flow=s.headways.flow, lane_end=lane_end, taper_end=s.taper_end, behaviour=b, pressured=pressured,
+            )  # fmt: skip
+
+        unhurried_from = float(x[-1]) if np.isnan(x_a[r]) else float(x_a[r])  # never eligible: nothing solved
+        built.append((r, x, crossing, forcing_from, *along(forcing_from, s.taper_end, True),
+                      *along(unhurried_from, float(x[-1]), False)))  # fmt: skip
+    streams = [_stream(settings[r]) for r in rows]
+    nodes = [settings[r].critical_gap.nodes(ACTIVE_NODES) for r in rows]
+    size = max(n.size for n, _ in nodes)
+    gaps = np.array([np.pad(n, (0, size - n.size), constant_values=n[-1]) for n, _ in nodes])
+    weights = np.array([np.pad(w, (0, size - w.size)) for _, w in nodes])
+    site_rules = Rules.stack([b[5] for b in built])
+    free_rules = Rules.stack([b[7] for b in built])
+    target = np.array([1.0 - settings[r].reliability for r in rows])
+    site_not = solve(streams, gaps, weights, site_rules)
+    free_not = solve(streams, gaps, weights, free_rules, stop_below=target)
+    free: dict[int, tuple[FloatArray, int, FloatArray]] = {}
+    site: dict[int, _SiteCurve] = {}
+    for i, (r, x, crossing, forcing_from, tau_site, _, tau_free, _) in enumerate(built):
+        full = station[r]
+        cells = np.arange(site_rules.cells[i]) * CELL
+        decided = 1.0 - np.interp(tau_site, cells, site_not[i, : site_rules.cells[i]])
+        decided = np.where(x >= forcing_from, decided, 0.0)
+        site[r] = _SiteCurve(site_rules.row(i), x, crossing, decided, np.interp(full, x, tau_site))
+        reached = np.flatnonzero(free_not[i, : free_rules.cells[i]] <= target[i])
+        last_cell = int(reached[0]) if reached.size else int(free_rules.cells[i]) - 1
+        cells = np.arange(last_cell + 1) * CELL
+        p = 1.0 - np.interp(tau_free, cells, free_not[i, : last_cell + 1])
+        p = np.where(x >= x_a[r], p, 0.0) if not np.isnan(x_a[r]) else np.zeros_like(x)
+        along = np.interp(full, crossing, p, left=0.0)
+        hit = np.flatnonzero(along[: count[r]] >= 1.0 - target[i]) if reached.size else np.array([], dtype=np.intp)
+        n = int(hit[0]) + 1 if hit.size else int(np.searchsorted(full[: count[r]], crossing[-1], side="right"))
+        free[r] = (along, max(1, min(n, int(count[r]))), np.interp(full, x, tau_free))
+    return free, site
 
 
 def _stream(setting: MergeSetting) -> HeadwayModel:
@@ -678,6 +792,15 @@ def monte_carlo_check(
             else [float(lane_end >= result.eligible_station), float(taper_end >= result.eligible_station)]
         )
         return MonteCarloCheck(count, p[0], p[1], 0.0)
+    if result.check is not None:  # the active model: the same behaviour drawn gap by gap
+        c = result.check
+        rng = np.random.default_rng(seed)
+        at = simulate(headways, critical_gap.sample(rng, count), c.rules, 0, rng)
+        cell = np.minimum(np.round(np.where(np.isfinite(at), at, 0.0) / CELL).astype(np.intp), c.rules.cells[0] - 1)
+        where = np.where(np.isfinite(at), np.interp(c.rules.station[0, cell], c.station, c.crossing), np.inf)
+        probabilities = [float(np.mean(where <= x)) for x in (lane_end, taper_end)]
+        error = max(math.sqrt(p * (1 - p) / count) for p in probabilities)
+        return MonteCarloCheck(count, probabilities[0], probabilities[1], error)
     tau_at = [result.stream_time_at_lane_end, result.stream_time_at_taper_end]
     merged_at = simulate_merges(headways, critical_gap, count, float(tau_at[-1]), np.random.default_rng(seed))
     probabilities = [

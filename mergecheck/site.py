@@ -21,6 +21,7 @@ from pydantic import BaseModel, ConfigDict, Field
 
 from .errors import InputError
 from .gap_acceptance import CriticalGap, default_critical_gaps
+from .merge_behaviour import MergeBehaviour
 from .inputs import GradePoint, build_profile, read_yaml, validated
 from .profile import VerticalProfile
 from .units import parse_quantity
@@ -138,6 +139,37 @@ class CriticalGapInput(_Strict):
     from_stop_sd: str | None = Field(default=None, description="Its standard deviation.")
 
 
+class BehaviourInput(_Strict):
+    """Parameters of the active merge model (defaults and their sources in mergecheck.merge_behaviour)."""
+
+    approach_window: str = Field(
+        default="5 s", description="Stream time from which a driver picks the gap to arrive beside (default 5 s)."
+    )
+    lag_share: float = Field(
+        default=0.5, ge=0.0, le=1.0, description="Share of the critical gap that must lie behind the merger (default 0.5)."
+    )
+    follower_easing: str = Field(
+        default="0.5 m/s^2", description="Deceleration of a follower who only eases off (default 0.5 m/s^2)."
+    )
+    lane_end_share: float = Field(
+        default=0.5, gt=0.0, le=1.0, description="Share of the critical gap still asked for at the lane end (default 0.5)."
+    )
+    pressure_distance: str = Field(
+        default="150 m", description="How far before the lane end drivers begin to accept shorter gaps (default 150 m)."
+    )
+    yield_at_capacity: float = Field(
+        default=0.8, ge=0.0, le=1.0, description="Probability that a lag vehicle lets a merger in at capacity density (default 0.8)."
+    )
+    capacity_density: str = Field(default="28 veh/km", description="Density at capacity per lane (default 28 veh/km).")
+    forced_gap: str = Field(default="1.0 s", description="Least gap a driver is let into or forces into (default 1.0 s).")
+    yield_braking: str = Field(
+        default="2.0 m/s^2", description="Deceleration a yielding or forced follower accepts (default 2.0 m/s^2)."
+    )
+    lane_change_time: str = Field(
+        default="4 s", description="Duration of the lane change; merges count where it is half done (default 4 s)."
+    )
+
+
 class GapAcceptanceInput(_Strict):
     """How the adjacent lane's gaps are modelled and accepted."""
 
@@ -164,6 +196,18 @@ class GapAcceptanceInput(_Strict):
     )
     critical_gaps: dict[str, CriticalGapInput] = Field(
         default_factory=dict, description="Critical gaps by design vehicle (as listed under ramp.vehicles)."
+    )
+    merge_model: Literal["active", "classic"] = Field(
+        default="active",
+        description=(
+            "'active' (default): drivers pick a gap on the approach, adjust speed to reach the next one, accept"
+            " shorter gaps near the lane end, need longer gaps when slower than the stream, are sometimes let in by"
+            " the lag vehicle and force in at the end of the lane. 'classic': Drew's fixed critical gap, gaps"
+            " drifting past at the search speed, no yielding, for comparison."
+        ),
+    )
+    behaviour: BehaviourInput = Field(
+        default_factory=lambda: BehaviourInput(), description="Parameters of the active merge model."
     )
 
 
@@ -255,6 +299,8 @@ class GapSettings:
     """[m/s]"""
     minimum_merge_speed: float
     """[m/s]"""
+    behaviour: MergeBehaviour | None
+    """The active merge model's parameters; None for the classic model."""
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -529,6 +575,32 @@ def _gap_settings(settings: GapAcceptanceInput, operating: float, adjacent: floa
         reliability=settings.reliability,
         search_speed=search,
         minimum_merge_speed=operating - differential,
+        behaviour=None if settings.merge_model == "classic" else _behaviour(settings.behaviour, search, source),
+    )
+
+
+def _behaviour(given: BehaviourInput, search: float, source: str) -> MergeBehaviour:
+    """The active model's parameters in SI, each within a range a driver could show."""
+
+    def q(name: str, kind: str, low: float, high: float, rule: str) -> float:
+        field = f"gap_acceptance.behaviour.{name}"
+        value = parse_quantity(getattr(given, name), kind, source=source, field=field)
+        if not low <= value <= high:
+            raise InputError(source, field, rule)
+        return value
+
+    return MergeBehaviour(
+        search_differential=search,
+        approach_window=q("approach_window", "time", 0.0, 30.0, "must lie between 0 and 30 s"),
+        lag_share=given.lag_share,
+        follower_easing=q("follower_easing", "acceleration", 0.05, 5.0, "must lie between 0.05 and 5 m/s^2"),
+        lane_end_share=given.lane_end_share,
+        pressure_distance=q("pressure_distance", "length", 1.0, 2000.0, "must lie between 1 and 2000 m"),
+        yield_at_capacity=given.yield_at_capacity,
+        capacity_density=q("capacity_density", "density", 0.005, 0.2, "must lie between 5 and 200 veh/km"),
+        forced_gap=q("forced_gap", "time", 0.3, 10.0, "must lie between 0.3 and 10 s"),
+        yield_braking=q("yield_braking", "acceleration", 0.1, 8.0, "must lie between 0.1 and 8 m/s^2"),
+        lane_change_time=q("lane_change_time", "time", 0.0, 15.0, "must lie between 0 and 15 s"),
     )
 
 

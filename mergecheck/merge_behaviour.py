@@ -1,0 +1,549 @@
+"""Merge behaviour from an acceleration lane: active gap selection, pressure near the lane end, yielding.
+
+A merging driver is eligible from the station x_a past the convergence point
+where they are within the minimum merge speed differential of the stream. From
+there they look at the adjacent lane in stream time tau (the headway time
+that has passed beside them, moving-observer relation):
+
+.. math:: \\frac{d\\tau}{dx} = \\frac{u(x)}{v_m\\,(v_m - u(x))}, \\qquad u(x) = \\max(\\delta(x), u_s)      (1)
+
+with delta(x) = v_m - v(x) the vehicle's own shortfall from the stream's
+speed v_m (its speed held at merge speed once reached) and u_s the search
+differential: a driver close to the stream's speed who has rejected the gap
+beside them eases off (or speeds up) to bring the next gap alongside, at a
+relative speed of at least u_s, instead of waiting for gaps to drift past
+(active gap selection; Choudhury, Ramanujam and Ben-Akiva 2009, TRR 2124:
+drivers target a gap other than the adjacent one and accelerate or
+decelerate to reach it).
+
+The first opportunity is the lag: the part of the gap beside the driver that
+is still behind them (the stationary residual of a headway, density
+S(r)/mu), not the whole gap. Each later gap h (lead to lag vehicle) is judged
+once, as it comes alongside at station x:
+
+* it is accepted if h >= t_req(x), with
+
+  .. math:: t_{req}(x) = t_c\\, m(d) + \\frac{u^2}{2\\, v_m\\, (a(x) + b_f)}             (2)
+
+  t_c the driver's critical gap at ease (log-normal across drivers), the
+  second term the time the lag vehicle needs to close the speed difference u
+  while the merger accelerates at a(x) (its own capability at that station)
+  and the follower eases off at b_f without braking (the safe-gap reasoning
+  of Gipps 1986, "A model for the structure of lane-changing decisions",
+  Transportation Research B 20(5)): a vehicle slower than the stream needs a
+  longer gap, most of all a heavy vehicle on an upgrade; and m(d) the
+  pressure of the lane end d metres ahead,
+
+  .. math:: m(d) = r_e + (1 - r_e) \\min(1, d / D_p)                                   (3)
+
+  (drivers accept shorter gaps as the end nears: Daamen, Loot and
+  Hoogendoorn 2010, TRR 2188; Marczak, Daamen and Buisson 2013,
+  Transportation Research C 36);
+* otherwise, if h >= t_f(x) = t_f0 + u^2 / (2 v_m (a(x) + b_y)), the lag
+  vehicle yields (eases back and lets the merger in, braking at up to b_y)
+  with probability
+
+  .. math:: p_y = p_c \\min(1, k / k_c), \\qquad k = q / v_m                          (4)
+
+  rising with the density of the adjacent lane (courtesy yielding: Kita 1993,
+  Transportation Research A 27(4); Hidas 2005, Transportation Research C
+  13(1)); in the taper every such gap is forced (p = 1): the driver noses in
+  and the follower must give way;
+* otherwise the gap passes and the next one comes alongside.
+
+Merging is then a renewal process in tau whose acceptance rule changes with
+the station where each gap is judged. With g_s the probability that a fresh
+gap comes alongside at stream time s, unmerged, and R_s(h) the probability
+that a gap of length h judged at s is refused,
+
+.. math::
+
+    g_s = g^{(0)}_s + \\int_0^s g_{s'} f(s - s') R_{s'}(s - s')\\, ds'                  (5)
+
+    P_{not}(\\tau) = w(\\tau) + \\int_0^\\tau g_s \\int_{\\tau - s}^\\infty f(h) R_s(h)\\, dh\\, ds  (6)
+
+with g^(0) the density of refused lags and w(tau) the probability of a
+refused lag still beside the driver at tau. :func:`solve` integrates Eqs.
+(5)-(6) forward on a grid in tau, exactly per cell for the headway masses,
+every driver node and design vehicle at once; :func:`simulate` draws the
+same behaviour gap by gap (Monte Carlo) to check it. Two curves are solved
+per vehicle: at the site (Eq. 3 with the real lane end, forced merges in the
+taper), and unhurried (m = 1, no forcing, on a lane imagined long enough):
+the length for the target reliability is read from the unhurried curve, so
+that a lane never counts as long enough because drivers are forced in.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+import numpy as np
+from numpy.typing import NDArray
+
+from .headways import CowanM3, Exponential, HeadwayModel
+
+FloatArray = NDArray[np.float64]
+IntArray = NDArray[np.intp]
+
+CELL = 0.2
+"""Grid step of Eqs. (5)-(6) in stream time. [s]"""
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class MergeBehaviour:
+    """Parameters of the active merge behaviour (SI units); each default names its basis in ``SOURCES``."""
+
+    search_differential: float = 15 / 3.6
+    """u_s of Eq. (1). [m/s]"""
+    follower_easing: float = 0.5
+    """b_f of Eq. (2): deceleration of a follower who only eases off. [m/s^2]"""
+    lane_end_share: float = 0.5
+    """r_e of Eq. (3): share of the critical gap still asked for at the end of the lane. [-]"""
+    pressure_distance: float = 150.0
+    """D_p of Eq. (3): how far before the end of the lane the pressure begins. [m]"""
+    yield_at_capacity: float = 0.8
+    """p_c of Eq. (4): probability that a lag vehicle yields to a merger at the capacity density. [-]"""
+    capacity_density: float = 28.0 / 1000
+    """k_c of Eq. (4). [veh/m]"""
+    forced_gap: float = 1.0
+    """t_f0: least gap a driver forces into, or is let into. [s]"""
+    yield_braking: float = 2.0
+    """b_y: deceleration a yielding or forced follower accepts. [m/s^2]"""
+    approach_window: float = 5.0
+    """W_a: stream time from which a driver picks the gap to arrive beside at x_a. [s]"""
+    lag_share: float = 0.5
+    """Share of the critical gap (and of the forced gap) that must lie behind the merger, the closing term
+    coming on top. [-]"""
+    lane_change_time: float = 4.0
+    """Duration of the lane change; a merge counts where it is half done. [s]"""
+
+    def __post_init__(self) -> None:
+        checks = {
+            "search differential": self.search_differential > 0,
+            "follower easing": self.follower_easing > 0,
+            "lane-end share": 0 < self.lane_end_share <= 1,
+            "pressure distance": self.pressure_distance > 0,
+            "yield probability": 0 <= self.yield_at_capacity <= 1,
+            "capacity density": self.capacity_density > 0,
+            "forced gap": self.forced_gap > 0,
+            "yield braking": self.yield_braking > 0,
+            "approach window": self.approach_window >= 0,
+            "lag share": 0 <= self.lag_share <= 1,
+            "lane-change time": self.lane_change_time >= 0,
+        }
+        bad = [name for name, ok in checks.items() if not ok]
+        if bad:
+            raise ValueError(f"merge behaviour: {bad[0]} out of range")
+
+    def yield_probability(self, flow: float, stream_speed: float) -> float:
+        """p_y of Eq. (4) at a flow [veh/s] and stream speed [m/s]. [-]"""
+        return self.yield_at_capacity * min(1.0, flow / stream_speed / self.capacity_density)
+
+
+SOURCES: dict[str, str] = {
+    "search_differential": (
+        "assumption: a driver close to the stream's speed adjusts speed to reach the next gap (active selection, "
+        "Choudhury, Ramanujam and Ben-Akiva 2009, TRR 2124); 15 km/h not from a published measurement"
+    ),
+    "follower_easing": "common practice: a following driver easing off without braking slows at about 0.5 m/s^2",
+    "lane_end_share": (
+        "assumption: accepted gaps shrink towards the lane end (Daamen, Loot and Hoogendoorn 2010, TRR 2188, and "
+        "Marczak, Daamen and Buisson 2013, Transportation Research C 36, found the distance to the lane end "
+        "significant); the share 0.5 is not from those papers"
+    ),
+    "pressure_distance": "assumption: about 6 s of travel at highway speed before the end of the lane",
+    "yield_at_capacity": (
+        "assumption: courtesy yielding rises with density (Kita 1993, Transportation Research A 27(4); Hidas 2005, "
+        "Transportation Research C 13(1)); 0.8 at capacity not from a published measurement, set with the approach "
+        "window so that the field pattern holds (tests/test_merge_behaviour.py)"
+    ),
+    "approach_window": (
+        "assumption: a driver watching the stream from the ramp picks among the gap beside them and those either side "
+        "(the adjacent, forward and backward gaps of Choudhury, Ramanujam and Ben-Akiva 2009, TRR 2124), about 5 s "
+        "of stream time; set so that the field pattern holds (tests/test_merge_behaviour.py)"
+    ),
+    "lag_share": "assumption: lead and lag share the gap equally when speeds match; the closing term adds to the lag",
+    "lane_change_time": (
+        "from memory: lane changes last about 3 to 6 s (Toledo and Zohar 2007, TRR 1999); a merge counts where it "
+        "is half done"
+    ),
+    "capacity_density": "Highway Capacity Manual 6th ed.: capacity of a basic freeway lane at about 45 pc/mi/ln (from memory)",
+    "forced_gap": (
+        "Daamen, Loot and Hoogendoorn 2010 (TRR 2188, abstract read): the smallest accepted gap observed lay "
+        "between 0.75 and 1.0 s"
+    ),
+    "yield_braking": "common practice: moderate braking of about 2 m/s^2, well below an emergency stop",
+}
+
+
+@dataclass(frozen=True, slots=True)
+class Rules:
+    """The acceptance rule of Eqs. (2)-(4) on a grid of stream time, one row per design vehicle.
+
+    Cell i holds stream time i * CELL; a gap judged there is accepted if at least
+    ``share[i] * t_c + closing[i]``, or if at least ``forced[i]`` with probability ``yielding[i]``.
+    Rows are padded with their last cell.
+    """
+
+    station: FloatArray
+    """(V, N) station where a gap of cell i is judged. [m]"""
+    share: FloatArray
+    """(V, N) m(d) of Eq. (3). [-]"""
+    closing: FloatArray
+    """(V, N) the closing term of Eq. (2). [s]"""
+    forced: FloatArray
+    """(V, N) t_f. [s]"""
+    yielding: FloatArray
+    """(V, N) probability of a yield for a gap between t_f and t_req. [-]"""
+    forced_lag: FloatArray
+    """(V, N) lag needed in a yield or forced merge. [s]"""
+    lag_part: FloatArray
+    """(V, N) share of t_c needed behind the merger (the lag share times m(d)); the closing term comes on top. [-]"""
+    cells: IntArray
+    """(V,) cells solved per row."""
+    force_cell: IntArray
+    """(V,) cell at the end of the lane, where a driver beside a refused gap forces in if its part behind
+    them is at least the forced lag; beyond the solved cells for the unhurried curve."""
+
+    def row(self, i: int) -> Rules:
+        """Row i alone."""
+        return Rules(
+            *(getattr(self, name)[i : i + 1, : self.cells[i]] for name in _PER_CELL),
+            self.cells[i : i + 1],
+            self.force_cell[i : i + 1],
+        )
+
+    @classmethod
+    def stack(cls, rows: Sequence[tuple[FloatArray, ...]]) -> Rules:
+        """Rows of (station, share, closing, forced, yielding, forced_lag, lag_part) per cell and the force
+        cell, padded to a common length."""
+        cells = np.array([r[0].size for r in rows], dtype=np.intp)
+        force = np.array([int(r[7][0]) for r in rows], dtype=np.intp)
+        width = int(cells.max())
+
+        def pad(k: int) -> FloatArray:
+            out = np.empty((len(rows), width))
+            for i, r in enumerate(rows):
+                out[i, : r[k].size], out[i, r[k].size :] = r[k], r[k][-1]
+            return out
+
+        return cls(pad(0), pad(1), pad(2), pad(3), pad(4), pad(5), pad(6), cells, force)
+
+
+_PER_CELL = ("station", "share", "closing", "forced", "yielding", "forced_lag", "lag_part")
+
+
+def search_rate(speed: FloatArray, stream_speed: float, behaviour: MergeBehaviour) -> tuple[FloatArray, FloatArray]:
+    """u(x) of Eq. (1) and d tau / dx, for a speed already held at merge speed. ([m/s], [s/m])"""
+    u = np.minimum(np.maximum(stream_speed - speed, behaviour.search_differential), 0.95 * stream_speed)
+    return u, u / (stream_speed * (stream_speed - u))
+
+
+def rule_along(
+    station: FloatArray,
+    speed: FloatArray,
+    acceleration: FloatArray,
+    *,
+    eligible: float,
+    until: float,
+    stream_speed: float,
+    merge_speed: float,
+    flow: float,
+    lane_end: float,
+    taper_end: float,
+    behaviour: MergeBehaviour,
+    pressured: bool,
+) -> tuple[FloatArray, tuple[FloatArray, ...]]:
+    """One vehicle's tau(x) at its stations, and its acceptance rule per cell from x_a to ``until``.
+
+    ``speed`` and ``acceleration`` are the vehicle's own along the path ([m/s], [m/s^2]; the
+    speed is held at ``merge_speed`` here), ``flow`` the adjacent lane's [veh/s]. ``pressured``
+    applies Eq. (3) with the real lane end and forced merges between ``lane_end`` and
+    ``taper_end``; otherwise m = 1 and the yield probability is Eq. (4) throughout (the
+    unhurried curve).
+    """
+    u, rate = search_rate(np.minimum(speed, merge_speed), stream_speed, behaviour)
+    past = station >= eligible
+    x = np.concatenate([[eligible], station[(station > eligible) & (station < until)], [until]])
+    r = np.interp(x, station, rate)
+    tau_x = behaviour.approach_window + np.concatenate([[0.0], np.cumsum(0.5 * (r[1:] + r[:-1]) * np.diff(x))])
+    tau_x, x = np.concatenate([[0.0], tau_x]), np.concatenate([[eligible], x])  # the approach: gaps judged at x_a
+    tau = np.where(past, np.interp(station, x[1:], tau_x[1:]), 0.0)
+    count = max(1, math.floor(tau_x[-1] / CELL) + 1)
+    at = np.interp(np.arange(count) * CELL, tau_x, x)
+    uc = np.interp(at, station, u)
+    ac = np.maximum(np.interp(at, station, acceleration), 0.0)
+    closing = uc**2 / (2 * stream_speed * (ac + behaviour.follower_easing))
+    forced_closing = uc**2 / (2 * stream_speed * (ac + behaviour.yield_braking))
+    forced = behaviour.forced_gap + forced_closing
+    forced_lag = behaviour.lag_share * behaviour.forced_gap + forced_closing
+    p = np.full(count, behaviour.yield_probability(flow, stream_speed))
+    share = np.ones(count)
+    if pressured:
+        to_end = np.clip((lane_end - at) / behaviour.pressure_distance, 0.0, 1.0)
+        share = behaviour.lane_end_share + (1 - behaviour.lane_end_share) * to_end
+        p = np.where((at >= lane_end) & (at <= taper_end), 1.0, p)
+    force = np.array([np.searchsorted(at, lane_end) if pressured else count + 1])
+    return tau, (at, share, closing, forced, p, forced_lag, behaviour.lag_share * share, force)
+
+
+@dataclass(frozen=True, slots=True)
+class _Streams:
+    """Headway models as rows of the family S(t) = alpha exp(-lambda (t - Delta)) beyond Delta, 1 below
+    (Cowan's M3; the negative exponential is alpha = 1, Delta = 0)."""
+
+    alpha: FloatArray
+    decay: FloatArray
+    shift: FloatArray
+
+    @classmethod
+    def of(cls, models: Sequence[HeadwayModel]) -> _Streams:
+        rows = []
+        for m in models:
+            if isinstance(m, CowanM3):
+                rows.append((m.free_fraction, m.decay, m.min_headway))
+            elif isinstance(m, Exponential):
+                rows.append((1.0, m.flow, 0.0))
+            else:
+                raise TypeError(f"no closed form for headway model {type(m).__name__}")
+        a = np.array(rows, dtype=float).reshape(-1, 3)
+        return cls(a[:, 0], a[:, 1], a[:, 2])
+
+    def take(self, index: IntArray) -> _Streams:
+        return _Streams(self.alpha[index], self.decay[index], self.shift[index])
+
+    def _columns(self, t: FloatArray) -> tuple[FloatArray, FloatArray, FloatArray]:
+        shape = (-1,) + (1,) * (t.ndim - 1)
+        return self.alpha.reshape(shape), self.decay.reshape(shape), self.shift.reshape(shape)
+
+    def cdf(self, t: FloatArray) -> FloatArray:
+        """P(h <= t), one row per stream. [-]"""
+        a, lam, d = self._columns(t)
+        return np.asarray(np.where(t < d, 0.0, 1.0 - a * np.exp(-lam * np.maximum(t - d, 0.0))), dtype=float)
+
+    def mean(self) -> FloatArray:
+        return np.asarray(self.shift + self.alpha / self.decay, dtype=float)
+
+    def survival_integral(self, t: FloatArray) -> FloatArray:
+        """Integral of P(h > r) from 0 to t. [s]"""
+        a, lam, d = self._columns(t)
+        x = np.maximum(t, 0.0)
+        return np.asarray(np.minimum(x, d) - np.expm1(-lam * np.maximum(x - d, 0.0)) * a / lam, dtype=float)
+
+
+def solve(
+    streams: Sequence[HeadwayModel],
+    critical_gaps: FloatArray,
+    weights: FloatArray,
+    rules: Rules,
+    *,
+    stop_below: FloatArray | None = None,
+) -> FloatArray:
+    """P_not of Eqs. (5)-(6) at each cell, mixed over the critical-gap nodes of each row. (V, N)
+
+    Parameters
+    ----------
+    streams
+        Headway model of each row's adjacent lane (V).
+    critical_gaps, weights
+        (V, K) critical-gap nodes t_c and their weights (summing to 1 per row). [s], [-]
+    rules
+        The acceptance rule along each row.
+    stop_below
+        (V,) a row may stop once its mixed P_not is at or below this; later cells keep that value.
+
+    Cell j of the headway axis holds lengths in ((j - 1/2) dt, (j + 1/2) dt], and a gap of that
+    cell ends j cells after it came alongside; the refused share of each cell is cut exactly at
+    t_f and t_req (closed forms of the M3 family), so that the grid only rounds when gaps end.
+    """
+    v_count, nodes = critical_gaps.shape
+    row_of = np.repeat(np.arange(v_count), nodes)
+    tc = critical_gaps.reshape(-1).astype(float)
+    weight = weights.reshape(-1).astype(float)
+    family = _Streams.of(streams).take(row_of)
+    n_cells = rules.share.shape[1]
+    top = np.maximum(rules.share.max(axis=1)[row_of] * tc + rules.closing.max(axis=1)[row_of], rules.forced.max(axis=1)[row_of])
+    need = np.ceil(top / CELL + 0.5).astype(np.intp) + 2  # cells a refused gap of each row may span
+    order = np.argsort(need, kind="stable")
+    groups = [_Group.start(order[part], need, family, rules, row_of, tc, weight, n_cells) for part in np.array_split(order, 3) if part.size]
+    out = np.zeros((v_count, n_cells))
+    last = np.full(v_count, n_cells - 1)
+    running = np.ones(v_count, dtype=bool)
+    for s in range(n_cells):
+        mixed = np.zeros(v_count)
+        for group in groups:
+            mixed += group.step(s, rules, v_count)
+        out[running, s] = np.clip(mixed[running], 0.0, 1.0)
+        finished = running & (s + 1 >= rules.cells)
+        if stop_below is not None:
+            finished |= running & (out[:, s] <= stop_below)
+        if finished.any():
+            last[finished] = s
+            running &= ~finished
+            if not running.any():
+                break
+            groups = [g for g in (group.keep(running) for group in groups) if g.rows.size]
+    cells = np.arange(out.shape[1])
+    return np.asarray(np.where(cells[None, :] > last[:, None], out[np.arange(v_count), last][:, None], out), dtype=float)
+
+
+class _Group:
+    """Rows of :func:`solve` whose refused gaps span about the same number of cells, stepped together."""
+
+    def __init__(
+        self, index: IntArray, width: int, family: _Streams, rows: IntArray, tc: FloatArray, weight: FloatArray,
+        fresh: FloatArray, beside: FloatArray,
+    ) -> None:  # fmt: skip
+        self.index, self.width, self.family = index, width, family
+        self.rows, self.tc, self.weight, self.fresh, self.beside = rows, tc, weight, fresh, beside
+        self.upper = (np.arange(width) + 0.5) * CELL
+        self.top = family.cdf(np.broadcast_to(self.upper, (index.size, width)).copy())
+
+    @classmethod
+    def start(
+        cls, index: IntArray, need: IntArray, family: _Streams, rules: Rules, row_of: IntArray, tc: FloatArray,
+        weight: FloatArray, n_cells: int,
+    ) -> _Group:  # fmt: skip
+        """The group's state at x_a: the gap beside the driver is length-biased, the driver at a uniform
+        place in it; what matters is its length h and the part r still behind the driver."""
+        width = int(need[index].max())
+        fam = family.take(index)
+        c0, a0, f0, b0, p0 = _first_rule(rules, row_of[index], tc[index])
+        edges = np.broadcast_to(np.arange(width + 1) * CELL, (index.size, width + 1))
+        refused = _refused_lags(fam, edges, c0, a0, f0, b0, p0)  # refused first gaps with r below each edge
+        span = n_cells + width + 2
+        fresh = np.zeros((index.size, span))  # by absolute cell: nothing shifts as the solution advances
+        fresh[:, 1 : width + 1] = np.diff(refused, axis=1)  # r in [i dt, (i + 1) dt): next gap alongside at i + 1
+        beside = np.zeros((index.size, span))
+        beside[:, :width] = refused[:, -1:] - refused[:, :width]  # refused first gap still beside at cell i
+        return cls(index, width, fam, row_of[index], tc[index], weight[index], fresh, beside)
+
+    def step(self, s: int, rules: Rules, v_count: int) -> FloatArray:
+        """Judge the gaps coming alongside at cell s; the weighted P_not of each row at s. (V,)"""
+        r, width = self.rows, self.width
+        c = rules.share[r, s] * self.tc + rules.closing[r, s]
+        f = np.minimum(rules.forced[r, s], c)
+        p = rules.yielding[r, s]
+        below_f = np.where(self.upper < f[:, None], self.top, self.family.cdf(f)[:, None])
+        below_c = np.where(self.upper < c[:, None], self.top, self.family.cdf(c)[:, None])
+        cum = below_f + (1 - p)[:, None] * (below_c - below_f)  # refused gaps no longer than each cell's top
+        cell = np.diff(cum, axis=1, prepend=0.0)
+        ahead = self.fresh[:, s : s + width + 1]
+        near = self.beside[:, s : s + width + 1]
+        g = ahead[:, 0] / np.maximum(1.0 - cell[:, 0], 1e-12)
+        end = rules.force_cell[r] == s
+        if end.any():  # at the end of the lane: refused gaps with enough left behind the driver are forced
+            k = np.ceil(rules.forced_lag[r[end], s] / CELL - 1e-9).astype(np.intp)
+            taken = np.where(np.arange(width + 1)[None, :] >= np.maximum(k, 1)[:, None], ahead[end], 0.0)
+            ahead[end] -= taken
+            near[end] -= np.cumsum(taken[:, ::-1], axis=1)[:, ::-1] - taken  # taken gaps end after cell i
+        ahead[:, 1:width] += g[:, None] * cell[:, 1:]
+        near[:, :width] += g[:, None] * (cum[:, -1:] - cum)
+        return np.bincount(r, weights=self.weight * near[:, 0], minlength=v_count)
+
+    def keep(self, running: NDArray[np.bool_]) -> _Group:
+        """The group without the rows of finished design vehicles, once they are many (copying is dear)."""
+        keep = running[self.rows]
+        if keep.mean() >= 0.7:
+            return self
+        new = object.__new__(_Group)
+        new.index, new.width, new.family = self.index[keep], self.width, self.family.take(np.flatnonzero(keep))
+        new.rows, new.tc, new.weight = self.rows[keep], self.tc[keep], self.weight[keep]
+        new.fresh, new.beside, new.upper, new.top = self.fresh[keep], self.beside[keep], self.upper, self.top[keep]
+        return new
+
+
+def _first_rule(
+    rules: Rules, row: IntArray, tc: FloatArray
+) -> tuple[FloatArray, FloatArray, FloatArray, FloatArray, FloatArray]:
+    """At cell 0: gap needed c, lag needed a, forced gap f, forced lag b and yield probability p."""
+    c = rules.share[row, 0] * tc + rules.closing[row, 0]
+    a = rules.lag_part[row, 0] * tc + rules.closing[row, 0]
+    f = np.minimum(rules.forced[row, 0], c)
+    b = np.minimum(rules.forced_lag[row, 0], a)
+    return c, a, f, b, rules.yielding[row, 0]
+
+
+def _refused_lags(
+    family: _Streams, e: FloatArray, c: FloatArray, a: FloatArray, f: FloatArray, b: FloatArray, p: FloatArray
+) -> FloatArray:
+    """Probability that the first gap is refused and its part behind the driver is shorter than e. (rows, E)
+
+    Accepted are (h >= c and r >= a), or a yield (probability p) with h >= f and r >= b; with
+    f <= c and b <= a, the refused density of r is
+
+    .. math:: w(r) = [S(r) - 1_{r \\ge a} S(r \\vee c) - p (1_{r \\ge b} S(r \\vee f) - 1_{r \\ge a} S(r \\vee c))] / \\mu
+
+    integrated here in closed form (S the headway survival function, mu the mean headway).
+    """
+
+    def beyond(start: FloatArray, cut: FloatArray) -> FloatArray:
+        """Integral of S(max(r, cut)) over r from start to e (0 where e <= start)."""
+        lo = np.minimum(start[:, None], e)
+        flat = np.minimum(e, np.maximum(cut[:, None], lo)) - lo
+        above = np.maximum(e, np.maximum(cut[:, None], lo))
+        tail = family.survival_integral(above) - family.survival_integral(np.maximum(cut[:, None], lo))
+        return np.asarray((1.0 - family.cdf(cut[:, None])) * flat + tail, dtype=float)
+
+    total = family.survival_integral(e) - beyond(a, c) - p[:, None] * (beyond(b, f) - beyond(a, c))
+    return np.asarray(np.maximum(total, 0.0) / family.mean()[:, None], dtype=float)
+
+
+def simulate(
+    headways: HeadwayModel, critical_gaps: FloatArray, rules: Rules, row: int, rng: np.random.Generator
+) -> FloatArray:
+    """Monte Carlo of the same behaviour for one row: stream time at which each driver merges (inf if not). [s]
+
+    One driver per critical gap given. Each starts beside a gap drawn length-biased (resampled from
+    a large pool in proportion to length) at a uniform position in it; the lag (the part still
+    behind) is judged first, then each gap as it comes alongside, by the rule of the cell holding
+    that stream time. Vectorised over drivers; shares no arithmetic with :func:`solve`.
+    """
+    tc = np.asarray(critical_gaps, dtype=float)
+    n = tc.size
+    count = int(rules.cells[row])
+    reach = count * CELL
+
+    def taken(t: FloatArray, gap: FloatArray, drivers: IntArray, behind: FloatArray | None = None) -> NDArray[np.bool_]:
+        i = np.minimum((t / CELL + 0.5).astype(np.intp), count - 1)
+        need = rules.share[row, i] * tc[drivers] + rules.closing[row, i]
+        least = np.minimum(rules.forced[row, i], need)
+        yielded = rng.random(drivers.size) < rules.yielding[row, i]
+        if behind is None:
+            return np.asarray((gap >= need) | ((gap >= least) & yielded), dtype=bool)
+        lag = rules.lag_part[row, i] * tc[drivers] + rules.closing[row, i]
+        lag_least = np.minimum(rules.forced_lag[row, i], lag)
+        normal = (gap >= need) & (behind >= lag)
+        return np.asarray(normal | ((gap >= least) & (behind >= lag_least) & yielded), dtype=bool)
+
+    pool = headways.sample(rng, 20 * n)
+    beside = rng.choice(pool, size=n, p=pool / pool.sum())
+    lag = rng.random(n) * beside
+    everyone = np.arange(n)
+    merged = np.full(n, np.inf)
+    first = taken(np.zeros(n), beside, everyone, lag)
+    merged[first] = 0.0
+    force_at = int(rules.force_cell[row])
+    force_time = force_at * CELL
+    force_lag = rules.forced_lag[row, min(force_at, count - 1)]
+
+    def forced(drivers: IntArray, start: FloatArray, end: FloatArray) -> None:
+        """Drivers beside a refused gap (from ``start`` to ``end``) at the end of the lane force in."""
+        spans = (np.round(start / CELL) < force_at) & (end - force_time >= force_lag) & (force_at < count)
+        merged[drivers[spans]] = force_time
+
+    forced(everyone[~first], np.zeros(n)[~first], lag[~first])
+    clock = lag.copy()
+    active = everyone[~first & (clock < reach) & ~np.isfinite(merged)]
+    while active.size:
+        h = headways.sample(rng, active.size)
+        take = taken(clock[active], h, active)
+        merged[active[take]] = clock[active[take]]
+        refused = active[~take]
+        forced(refused, clock[refused], clock[refused] + h[~take])
+        clock[active] += h
+        active = active[~take & (clock[active] < reach)]
+        active = active[~np.isfinite(merged[active])]
+    return merged
