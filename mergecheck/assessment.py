@@ -40,6 +40,7 @@ from .gap_acceptance import (
 )
 from .headways import HeadwayModel, headway_model
 from .merge_area import COVERAGE, LANES_COVERED
+from .merge_behaviour import SOURCES, plain_words
 from .merge_operations import MergeOperations, merge_operations
 from .policy import PolicyTable, PolicyValue, initial_speed_for, load_policy, policy_minimum
 from .site import Site, SiteVehicle
@@ -436,12 +437,7 @@ def _assumptions(
             if site.gaps.headway_model == "m3"
             else "random arrivals (Adams 1936)",
         ),
-        Assumption(
-            "Gap search",
-            f"merging allowed past the convergence point at {show(site.gaps.minimum_merge_speed, 'speed', 'si')} or more; "
-            f"gaps pass at least at {show(site.gaps.search_speed, 'speed', 'si')} relative speed; merge speed held once reached",
-            "moving-observer relation; the search speed is an explicit assumption (site criterion)",
-        ),
+        _behaviour_assumption(site),
         Assumption(
             "Merge reliability target",
             f"{site.gaps.reliability:.0%} of drivers merged by the end of the lane",
@@ -516,6 +512,23 @@ def _assumptions(
         items.append(Assumption("Policy table", policy.table.title, policy.table.source))
         items.append(Assumption("Policy interpolation", "see rule", policy.table.interpolation))
     return tuple(items)
+
+
+def _behaviour_assumption(site: Site) -> Assumption:
+    """Which merge behaviour the probability assumes, in plain words, with its sources."""
+    allowed = (
+        f"merging allowed past the convergence point at {show(site.gaps.minimum_merge_speed, 'speed', 'si')} or more; "
+    )
+    b = site.gaps.behaviour
+    if b is None:
+        return Assumption(
+            "Merge behaviour (classic model)",
+            allowed + f"each driver waits for a gap of at least their critical gap to drift past at "
+            f"{show(site.gaps.search_speed, 'speed', 'si')} relative speed or more, holds merge speed, never forces in",
+            "Drew (1968), Traffic Flow Theory and Control, ch. 9 (from memory); moving-observer relation",
+        )
+    sources = "; ".join(f"{name.replace('_', ' ')}: {text}" for name, text in SOURCES.items())
+    return Assumption("Merge behaviour (active model)", allowed + plain_words(b), sources)
 
 
 def _headway_text(site: Site) -> str:

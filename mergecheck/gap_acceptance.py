@@ -656,8 +656,8 @@ def _active_curves(
     built = []
     for r in rows:
         s = settings[r]
-        b = s.behaviour
-        assert b is not None and s.headways is not None
+        b, flow = s.behaviour, _stream(s).flow
+        assert b is not None
         x, keep = np.unique(station[r, : count[r]], return_index=True)
         v = speed[r, : count[r]][keep]
         a = v * np.gradient(v, x) if x.size > 1 else np.zeros_like(x)  # the vehicle's own acceleration a(x)
@@ -667,15 +667,14 @@ def _active_curves(
         # a vehicle still below the minimum merge speed at the end of the lane forces in there
         forcing_from = lane_end if np.isnan(x_a[r]) else min(float(x_a[r]), lane_end)
 
-        def along(eligible: float, until: float, pressured: bool) -> tuple[FloatArray, tuple[FloatArray, ...]]:
-            return rule_along(
-                x, v, a, eligible=eligible, until=until, stream_speed=s.stream_speed, merge_speed=s.merge_speed,
-                flow=s.headways.flow, lane_end=lane_end, taper_end=s.taper_end, behaviour=b, pressured=pressured,
-            )  # fmt: skip
-
+        rule = functools.partial(
+            rule_along, x, v, a, stream_speed=s.stream_speed, merge_speed=s.merge_speed, flow=flow,
+            lane_end=lane_end, taper_end=s.taper_end, behaviour=b,
+        )  # fmt: skip
         unhurried_from = float(x[-1]) if np.isnan(x_a[r]) else float(x_a[r])  # never eligible: nothing solved
-        built.append((r, x, crossing, forcing_from, *along(forcing_from, s.taper_end, True),
-                      *along(unhurried_from, float(x[-1]), False)))  # fmt: skip
+        at_site = rule(eligible=forcing_from, until=s.taper_end, pressured=True)
+        unhurried = rule(eligible=unhurried_from, until=float(x[-1]), pressured=False)
+        built.append((r, x, crossing, forcing_from, *at_site, *unhurried))
     streams = [_stream(settings[r]) for r in rows]
     nodes = [settings[r].critical_gap.nodes(ACTIVE_NODES) for r in rows]
     size = max(n.size for n, _ in nodes)
@@ -691,18 +690,17 @@ def _active_curves(
     for i, (r, x, crossing, forcing_from, tau_site, _, tau_free, _) in enumerate(built):
         full = station[r]
         cells = np.arange(site_rules.cells[i]) * CELL
-        decided = 1.0 - np.interp(tau_site, cells, site_not[i, : site_rules.cells[i]])
-        decided = np.where(x >= forcing_from, decided, 0.0)
+        decided = np.where(x >= forcing_from, 1.0 - np.interp(tau_site, cells, site_not[i, : site_rules.cells[i]]), 0.0)
         site[r] = _SiteCurve(site_rules.row(i), x, crossing, decided, np.interp(full, x, tau_site))
         reached = np.flatnonzero(free_not[i, : free_rules.cells[i]] <= target[i])
         last_cell = int(reached[0]) if reached.size else int(free_rules.cells[i]) - 1
-        cells = np.arange(last_cell + 1) * CELL
-        p = 1.0 - np.interp(tau_free, cells, free_not[i, : last_cell + 1])
-        p = np.where(x >= x_a[r], p, 0.0) if not np.isnan(x_a[r]) else np.zeros_like(x)
-        along = np.interp(full, crossing, p, left=0.0)
-        hit = np.flatnonzero(along[: count[r]] >= 1.0 - target[i]) if reached.size else np.array([], dtype=np.intp)
+        solved_cells = np.arange(last_cell + 1) * CELL
+        eligible = ~np.isnan(x_a[r]) & (x >= x_a[r])
+        p = np.where(eligible, 1.0 - np.interp(tau_free, solved_cells, free_not[i, : last_cell + 1]), 0.0)
+        shifted = np.interp(full, crossing, p, left=0.0)
+        hit = np.flatnonzero(shifted[: count[r]] >= 1.0 - target[i]) if reached.size else np.array([], dtype=np.intp)
         n = int(hit[0]) + 1 if hit.size else int(np.searchsorted(full[: count[r]], crossing[-1], side="right"))
-        free[r] = (along, max(1, min(n, int(count[r]))), np.interp(full, x, tau_free))
+        free[r] = (shifted, max(1, min(n, int(count[r]))), np.interp(full, x, tau_free))
     return free, site
 
 

@@ -107,7 +107,7 @@ class MergeBehaviour:
     """p_c of Eq. (4): probability that a lag vehicle yields to a merger at the capacity density. [-]"""
     capacity_density: float = 28.0 / 1000
     """k_c of Eq. (4). [veh/m]"""
-    forced_gap: float = 1.0
+    forced_gap: float = 0.8
     """t_f0: least gap a driver forces into, or is let into. [s]"""
     yield_braking: float = 2.0
     """b_y: deceleration a yielding or forced follower accepts. [m/s^2]"""
@@ -172,7 +172,7 @@ SOURCES: dict[str, str] = {
     "capacity_density": "Highway Capacity Manual 6th ed.: capacity of a basic freeway lane at about 45 pc/mi/ln (from memory)",
     "forced_gap": (
         "Daamen, Loot and Hoogendoorn 2010 (TRR 2188, abstract read): the smallest accepted gap observed lay "
-        "between 0.75 and 1.0 s"
+        "between 0.75 and 1.0 s; 0.8 s taken within that range"
     ),
     "yield_braking": "common practice: moderate braking of about 2 m/s^2, well below an emergency stop",
 }
@@ -209,11 +209,8 @@ class Rules:
 
     def row(self, i: int) -> Rules:
         """Row i alone."""
-        return Rules(
-            *(getattr(self, name)[i : i + 1, : self.cells[i]] for name in _PER_CELL),
-            self.cells[i : i + 1],
-            self.force_cell[i : i + 1],
-        )
+        cut = {name: getattr(self, name)[i : i + 1, : self.cells[i]] for name in _PER_CELL}
+        return Rules(**cut, cells=self.cells[i : i + 1], force_cell=self.force_cell[i : i + 1])
 
     @classmethod
     def stack(cls, rows: Sequence[tuple[FloatArray, ...]]) -> Rules:
@@ -233,6 +230,22 @@ class Rules:
 
 
 _PER_CELL = ("station", "share", "closing", "forced", "yielding", "forced_lag", "lag_part")
+
+
+def plain_words(behaviour: MergeBehaviour) -> str:
+    """What the active model assumes drivers do, for a report."""
+    b = behaviour
+    return (
+        f"drivers pick, from about {b.approach_window:.0f} s of the adjacent stream seen on the approach, the gap they"
+        " arrive beside; a driver who refuses the gap beside them eases off or speeds up to bring the next one"
+        f" alongside (at least {b.search_differential * 3.6:.0f} km/h relative); the part of a gap behind the driver"
+        " must hold the lag, and a vehicle slower than the stream needs a longer gap, the more so the weaker it"
+        f" accelerates; within {b.pressure_distance:.0f} m of the end of the lane drivers accept shorter gaps (down"
+        f" to {b.lane_end_share:.0%} of their own); lag drivers let a merger in more often as the lane fills"
+        f" ({b.yield_at_capacity:.0%} of refused gaps at capacity); at the end of the lane drivers force into any"
+        f" gap of {b.forced_gap:.1f} s or more plus the closing time; a merge counts where the lane change is half"
+        " done. The length for the reliability target is read without the lane-end pressure and forced merges."
+    )
 
 
 def search_rate(speed: FloatArray, stream_speed: float, behaviour: MergeBehaviour) -> tuple[FloatArray, FloatArray]:
@@ -364,10 +377,16 @@ def solve(
     weight = weights.reshape(-1).astype(float)
     family = _Streams.of(streams).take(row_of)
     n_cells = rules.share.shape[1]
-    top = np.maximum(rules.share.max(axis=1)[row_of] * tc + rules.closing.max(axis=1)[row_of], rules.forced.max(axis=1)[row_of])
+    top = np.maximum(
+        rules.share.max(axis=1)[row_of] * tc + rules.closing.max(axis=1)[row_of], rules.forced.max(axis=1)[row_of]
+    )
     need = np.ceil(top / CELL + 0.5).astype(np.intp) + 2  # cells a refused gap of each row may span
     order = np.argsort(need, kind="stable")
-    groups = [_Group.start(order[part], need, family, rules, row_of, tc, weight, n_cells) for part in np.array_split(order, 3) if part.size]
+    groups = [
+        _Group.start(order[part], need, family, rules, row_of, tc, weight, n_cells)
+        for part in np.array_split(order, 3)
+        if part.size
+    ]
     out = np.zeros((v_count, n_cells))
     last = np.full(v_count, n_cells - 1)
     running = np.ones(v_count, dtype=bool)
@@ -386,7 +405,9 @@ def solve(
                 break
             groups = [g for g in (group.keep(running) for group in groups) if g.rows.size]
     cells = np.arange(out.shape[1])
-    return np.asarray(np.where(cells[None, :] > last[:, None], out[np.arange(v_count), last][:, None], out), dtype=float)
+    return np.asarray(
+        np.where(cells[None, :] > last[:, None], out[np.arange(v_count), last][:, None], out), dtype=float
+    )
 
 
 class _Group:
@@ -435,13 +456,17 @@ class _Group:
         g = ahead[:, 0] / np.maximum(1.0 - cell[:, 0], 1e-12)
         end = rules.force_cell[r] == s
         if end.any():  # at the end of the lane: refused gaps with enough left behind the driver are forced
-            k = np.ceil(rules.forced_lag[r[end], s] / CELL - 1e-9).astype(np.intp)
-            taken = np.where(np.arange(width + 1)[None, :] >= np.maximum(k, 1)[:, None], ahead[end], 0.0)
+            # a gap ending k cells on has (k - 1/2, k + 1/2] cells left: the share of that beyond the forced lag
+            beyond = np.clip(
+                np.arange(width + 1)[None, :] + 0.5 - rules.forced_lag[r[end], s][:, None] / CELL, 0.0, 1.0
+            )
+            beyond[:, 0] = 0.0
+            taken = beyond * ahead[end]
             ahead[end] -= taken
             near[end] -= np.cumsum(taken[:, ::-1], axis=1)[:, ::-1] - taken  # taken gaps end after cell i
         ahead[:, 1:width] += g[:, None] * cell[:, 1:]
         near[:, :width] += g[:, None] * (cum[:, -1:] - cum)
-        return np.bincount(r, weights=self.weight * near[:, 0], minlength=v_count)
+        return np.asarray(np.bincount(r, weights=self.weight * near[:, 0], minlength=v_count), dtype=float)
 
     def keep(self, running: NDArray[np.bool_]) -> _Group:
         """The group without the rows of finished design vehicles, once they are many (copying is dear)."""

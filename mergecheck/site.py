@@ -21,8 +21,8 @@ from pydantic import BaseModel, ConfigDict, Field
 
 from .errors import InputError
 from .gap_acceptance import CriticalGap, default_critical_gaps
-from .merge_behaviour import MergeBehaviour
 from .inputs import GradePoint, build_profile, read_yaml, validated
+from .merge_behaviour import MergeBehaviour
 from .profile import VerticalProfile
 from .units import parse_quantity
 from .vehicles import DesignVehicle, load_vehicle
@@ -146,22 +146,33 @@ class BehaviourInput(_Strict):
         default="5 s", description="Stream time from which a driver picks the gap to arrive beside (default 5 s)."
     )
     lag_share: float = Field(
-        default=0.5, ge=0.0, le=1.0, description="Share of the critical gap that must lie behind the merger (default 0.5)."
+        default=0.5,
+        ge=0.0,
+        le=1.0,
+        description="Share of the critical gap that must lie behind the merger (default 0.5).",
     )
     follower_easing: str = Field(
         default="0.5 m/s^2", description="Deceleration of a follower who only eases off (default 0.5 m/s^2)."
     )
     lane_end_share: float = Field(
-        default=0.5, gt=0.0, le=1.0, description="Share of the critical gap still asked for at the lane end (default 0.5)."
+        default=0.5,
+        gt=0.0,
+        le=1.0,
+        description="Share of the critical gap still asked for at the lane end (default 0.5).",
     )
     pressure_distance: str = Field(
         default="150 m", description="How far before the lane end drivers begin to accept shorter gaps (default 150 m)."
     )
     yield_at_capacity: float = Field(
-        default=0.8, ge=0.0, le=1.0, description="Probability that a lag vehicle lets a merger in at capacity density (default 0.8)."
+        default=0.8,
+        ge=0.0,
+        le=1.0,
+        description="Probability that a lag vehicle lets a merger in at capacity density (default 0.8).",
     )
     capacity_density: str = Field(default="28 veh/km", description="Density at capacity per lane (default 28 veh/km).")
-    forced_gap: str = Field(default="1.0 s", description="Least gap a driver is let into or forces into (default 1.0 s).")
+    forced_gap: str = Field(
+        default="0.8 s", description="Least gap a driver is let into or forces into (default 0.8 s)."
+    )
     yield_braking: str = Field(
         default="2.0 m/s^2", description="Deceleration a yielding or forced follower accepts (default 2.0 m/s^2)."
     )

@@ -118,6 +118,7 @@ def site_json(assessment: SiteAssessment) -> dict[str, Any]:
                 "large_speed_differential": v.large_differential,
                 "crawl_speed_m_s": _number(v.crawl_speed),
                 "merge_eligible_station_m": _number(v.merge.eligible_station, 3),
+                "merge_model": v.merge.model,
                 "merge_probability_by_lane_end": _number(v.merge.by_lane_end),
                 "merge_probability_by_taper_end": _number(v.merge.by_taper_end),
                 "length_for_reliability_m": _number(v.merge.length_for_reliability, 3),
