@@ -229,3 +229,13 @@ def test_the_site_check_monte_carlo_agrees_with_the_analytic_figures() -> None:
         tolerance = 4 * v.monte_carlo.standard_error + 0.006
         assert v.monte_carlo.by_lane_end == pytest.approx(v.merge.by_lane_end, abs=tolerance)
         assert v.monte_carlo.by_taper_end == pytest.approx(v.merge.by_taper_end, abs=tolerance)
+
+
+def test_every_report_says_which_behaviour_the_probability_assumes(cli: Any, repo: Any, tmp_path: Any) -> None:
+    md, html = tmp_path / "r.md", tmp_path / "r.html"
+    run = cli("check", repo / "examples" / "willowmere-level.yaml", "--markdown", md, "--html", html)
+    assert run.code == 0
+    for text in (run.stdout, md.read_text(encoding="utf-8"), html.read_text(encoding="utf-8")):
+        assert "Merge behaviour assumed: drivers pick a gap on the approach" in " ".join(text.split())
+    doc = cli("check", repo / "examples" / "willowmere-level.yaml", "--json").json()
+    assert {v["merge_model"] for v in doc["vehicles"]} == {"active"}

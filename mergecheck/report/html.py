@@ -14,7 +14,7 @@ from ..assessment import SiteAssessment, summary_sentence
 from ..exception import DesignException
 from ..units import UnitSystem, show
 from . import plots
-from .wording import clearing, mitigation_change
+from .wording import clearing, merge_behaviour, mitigation_change
 
 _ENVIRONMENT = jinja2.Environment(
     loader=jinja2.PackageLoader("mergecheck.report", "templates"),
@@ -46,6 +46,7 @@ def site_html(assessment: SiteAssessment, system: UnitSystem, exception: DesignE
         exception=exception,
         fmt=fmt,
         change_text=lambda m: mitigation_change(m, system),
+        behaviour=merge_behaviour(assessment.site),
         clears=clearing,
         system=system,
         version=__version__,

@@ -8,7 +8,7 @@ from ..cautions import CAUTIONS
 from ..exception import DesignException
 from ..units import UnitSystem, number, show, unit_symbol
 from .table_rows import batch_row
-from .wording import clearing, mitigation_change
+from .wording import clearing, merge_behaviour, mitigation_change
 
 
 def _cell(text: object) -> str:
@@ -102,6 +102,8 @@ def site_markdown(assessment: SiteAssessment, system: UnitSystem, exception: Des
             f"{m.forced_merges_per_h:.1f} | {m.stops_per_h:.1f} | {m.mean_stopped_wait:.0f} |"
         )
     lines += [
+        "",
+        merge_behaviour(site),
         "",
         "'May merge from' is measured from the convergence point: where the vehicle first comes within the minimum "
         "merge speed of the stream. A stopped vehicle waits for a gap at its from-stop critical gap (Adams' formula "

@@ -19,7 +19,7 @@ from ..shockwave import QueueGrowth
 from ..sweep import Sweep
 from ..units import UnitSystem, convert, number, show, unit_symbol
 from .table_rows import batch_row
-from .wording import clearing
+from .wording import clearing, merge_behaviour
 
 
 def _table_interval(length: float, system: UnitSystem) -> float:
@@ -220,6 +220,7 @@ def site_view(assessment: SiteAssessment, system: UnitSystem) -> RenderableType:
         speeds,
         lengths,
         merging,
+        Text(merge_behaviour(site), style="dim"),
     ]
     if policy is not None:
         parts.append(Text(f"Policy minimum: {basis}.", style="bold"))

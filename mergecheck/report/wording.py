@@ -4,7 +4,24 @@ from __future__ import annotations
 
 from ..exception import Mitigation
 from ..merge_operations import MergeOperations
+from ..site import Site
 from ..units import UnitSystem, show
+
+
+def merge_behaviour(site: Site) -> str:
+    """One sentence on which merge behaviour the probabilities assume (the Assumptions give the parameters)."""
+    if site.gaps.behaviour is None:
+        return (
+            "Merge behaviour assumed: the classic model (each driver waits for a gap at least their critical gap to "
+            "drift past, holds merge speed, is never let in and never forces in)."
+        )
+    return (
+        "Merge behaviour assumed: drivers pick a gap on the approach, judge the gap beside them by the part still "
+        "behind them, adjust speed to reach the next one, need longer gaps when slower than the stream, accept "
+        "shorter ones near the end of the lane, are sometimes let in by the lag driver (more often in dense "
+        "traffic) and force in at the end of the lane; only a driver finding no gap at all stops. The length for "
+        "the reliability target counts no lane-end pressure or forced merges."
+    )
 
 
 def mitigation_change(mitigation: Mitigation, system: UnitSystem) -> str:
