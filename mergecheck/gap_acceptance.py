@@ -1,5 +1,9 @@
 """Merge reliability: the probability of finding an acceptable gap along the lane.
 
+Two behaviours: the active model of :mod:`mergecheck.merge_behaviour` (the default for a site) and the
+classic model described here (Drew's formulation, kept for comparison). Both give their results in the
+same :class:`MergeReliability`.
+
 A merging driver beside the adjacent through lane accepts the first gap (time
 headway of the stream) not shorter than their critical gap t_c, which varies
 across drivers (log-normal). Gaps pass a merging vehicle at the rate the
@@ -507,8 +511,11 @@ def merge_reliability(
     reliability: float,
     flow: float,
     search_length: float = 3000.0,
+    behaviour: MergeBehaviour | None = None,
+    taper_start: float | None = None,
 ) -> MergeReliability:
-    """Merge probability along the lane for one design vehicle (module docstring, Eqs. 1-3).
+    """Merge probability along the lane for one design vehicle (module docstring, Eqs. 1-3; with
+    ``behaviour``, the active model of :mod:`mergecheck.merge_behaviour`).
 
     The trajectory is extended beyond its last sample at its last speed (the
     vehicle has then settled at its crawl speed or holds its merge speed), up
@@ -533,6 +540,8 @@ def merge_reliability(
         reliability=reliability,
         flow=flow,
         search_length=search_length,
+        behaviour=behaviour,
+        taper_start=taper_start,
     )
     return merge_reliabilities([station], [speed], [setting])[0]
 

@@ -447,9 +447,11 @@ class _Group:
         c = rules.share[r, s] * self.tc + rules.closing[r, s]
         f = np.minimum(rules.forced[r, s], c)
         p = rules.yielding[r, s]
-        below_f = np.where(self.upper < f[:, None], self.top, self.family.cdf(f)[:, None])
-        below_c = np.where(self.upper < c[:, None], self.top, self.family.cdf(c)[:, None])
-        cum = below_f + (1 - p)[:, None] * (below_c - below_f)  # refused gaps no longer than each cell's top
+        # refused gaps no longer than each cell's top: P(h <= min(top, f)) + (1 - p) P(min(top, f) < h <= min(top, c)),
+        # with P(h <= min(top, t)) = min(P(h <= top), P(h <= t)) as the distribution function is monotone
+        cum = np.minimum(self.top, self.family.cdf(f)[:, None])
+        cum *= p[:, None]
+        cum += (1 - p)[:, None] * np.minimum(self.top, self.family.cdf(c)[:, None])
         cell = np.diff(cum, axis=1, prepend=0.0)
         ahead = self.fresh[:, s : s + width + 1]
         near = self.beside[:, s : s + width + 1]
