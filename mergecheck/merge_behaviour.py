@@ -16,10 +16,13 @@ relative speed of at least u_s, instead of waiting for gaps to drift past
 drivers target a gap other than the adjacent one and accelerate or
 decelerate to reach it).
 
-The first opportunity is the lag: the part of the gap beside the driver that
-is still behind them (the stationary residual of a headway, density
-S(r)/mu), not the whole gap. Each later gap h (lead to lag vehicle) is judged
-once, as it comes alongside at station x:
+Watching the stream from the ramp, the driver arrives beside a gap picked
+from the first W_a of stream time (the approach window: tau starts at W_a at
+x_a, every gap within it judged there). The gap beside the driver is judged
+by its length h and by the part r still behind them (the lag, which must
+hold the lag share of the critical gap plus the closing term below), not by
+its length alone. Each later gap h (lead to lag vehicle) is judged once, as
+it comes alongside at station x:
 
 * it is accepted if h >= t_req(x), with
 
@@ -51,6 +54,12 @@ once, as it comes alongside at station x:
   and the follower must give way;
 * otherwise the gap passes and the next one comes alongside.
 
+At the end of the full-width lane a driver still beside a refused gap forces
+into it if the part behind them holds the forced lag. A vehicle that never
+comes within the minimum merge speed differential is judged from the end of
+the lane by the forced rule alone. A merge is counted where the lane change
+is half done, half the lane-change time after the decision.
+
 Merging is then a renewal process in tau whose acceptance rule changes with
 the station where each gap is judged. With g_s the probability that a fresh
 gap comes alongside at stream time s, unmerged, and R_s(h) the probability
@@ -62,8 +71,8 @@ that a gap of length h judged at s is refused,
 
     P_{not}(\\tau) = w(\\tau) + \\int_0^\\tau g_s \\int_{\\tau - s}^\\infty f(h) R_s(h)\\, dh\\, ds  (6)
 
-with g^(0) the density of refused lags and w(tau) the probability of a
-refused lag still beside the driver at tau. :func:`solve` integrates Eqs.
+with g^(0) the density of refused first gaps ending and w(tau) the probability of a
+refused first gap still beside the driver at tau. :func:`solve` integrates Eqs.
 (5)-(6) forward on a grid in tau, exactly per cell for the headway masses,
 every driver node and design vehicle at once; :func:`simulate` draws the
 same behaviour gap by gap (Monte Carlo) to check it. Two curves are solved
