@@ -149,7 +149,10 @@ class SiteAssessment:
 
     def figures_only(self) -> SiteAssessment:
         """The same assessment without the curves along the path (what a batch keeps of each site)."""
-        slim = tuple(replace(v, trajectory=None, merge=replace(v.merge, curve=None)) for v in self.vehicles)
+        slim = tuple(
+            replace(v, trajectory=None, merge=replace(v.merge, curve=None, unhurried=None, check=None))
+            for v in self.vehicles
+        )
         governing = next(i for i, v in enumerate(self.vehicles) if v is self.governing)
         return replace(self, vehicles=slim, governing=slim[governing])
 

@@ -583,7 +583,7 @@ def merge_reliabilities(
     solved = count.copy()
     last = tau[np.arange(len(settings)), count - 1]
     active = [r for r, s in enumerate(settings) if s.behaviour is not None and s.headways is not None]
-    site_curves, checks = _active_curves(station, speed, count, x_a, settings, active)
+    unhurried_rows, checks = _active_curves(station, speed, count, x_a, settings, active)
     # classic: solve past the taper end (and at least FIRST_REACH); on to the search's end only for rows still short
     pending = {
         r: min(float(last[r]), max(float(tau_taper_end[r]), FIRST_REACH))
@@ -601,12 +601,14 @@ def merge_reliabilities(
                 continue
             solved[r] = int(np.searchsorted(tau[r, : count[r]], renewal.reach, side="right"))
             merged[r] = 1.0 - renewal.not_merged(tau[r], which)
-    for r, (unhurried_p, unhurried_n, unhurried_tau) in site_curves.items():
+    for r, (unhurried_p, unhurried_n, unhurried_tau) in unhurried_rows.items():
         merged[r], solved[r], tau[r] = unhurried_p, unhurried_n, unhurried_tau
     probability = np.where(station >= start[:, None], merged, 0.0)
     probability = np.maximum.accumulate(np.clip(probability, 0.0, 1.0), axis=1)
     length = _first_reaching(station, probability, solved, reliability) - convergence
-    unhurried = {r: MergeCurve(*(a[r, : solved[r]].copy() for a in (station, probability, tau))) for r in site_curves}
+    unhurried = {
+        r: MergeCurve(*(a[r, : solved[r]].copy() for a in (station, probability, tau))) for r in unhurried_rows
+    }
     for r, check in checks.items():  # the site curve of the active model: lane-end pressure and forced merges
         probability[r] = np.interp(station[r], check.crossing, check.site)
         solved[r] = int(np.searchsorted(station[r, : count[r]], taper_end[r], side="right"))
