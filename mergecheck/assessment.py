@@ -48,13 +48,16 @@ from .trajectory import Run, Trajectory, accelerate_many, speeds_at
 from .units import show
 from .vehicles import DesignVehicle
 
-RELIABILITY_SEARCH = 3000.0
-"""How far beyond the taper the lane is imagined extended to find the length for the target reliability. [m]"""
+SEARCH_HORIZON = 6000.0
+"""How far past the convergence point the lane is imagined extended to find the length for the target
+reliability, whatever the lane provided (so that a vehicle's need does not depend on the lane). [m]"""
 MERGE_GRID = 5.0
-"""Spacing of the stations at which the merge probability is evaluated along the lane and taper. [m]"""
+"""Spacing of the stations at which the merge probability is evaluated over the first NEAR_SEARCH metres past
+the convergence point and along the taper. [m]"""
+NEAR_SEARCH = 1000.0
+"""Extent of the fine grid past the convergence point. [m]"""
 SEARCH_GRID = 20.0
-"""Spacing of those stations in the search beyond the taper (an imagined longer lane; lengths found there are
-interpolated between stations, to well under a metre). [m]"""
+"""Spacing of the stations beyond (lengths found there are interpolated between stations). [m]"""
 FloatArray = NDArray[np.float64]
 VehicleVerdict = Literal["meets", "short", "cannot-reach"]
 SiteVerdict = Literal["meets", "short"]
@@ -131,7 +134,8 @@ class SiteAssessment:
     initial_speed_basis: str
     """Where the initial speed comes from."""
     average_grade: float
-    """Average grade from the convergence point to the start of the taper. [fraction]"""
+    """Average grade from the convergence point to the start of the taper (over the taper for a taper-type entrance
+    with no parallel lane). [fraction]"""
     policy: PolicyValue | None
     merge_area: MergeOperations | None
     """Capacity-manual merge-area check; None without a mainline flow."""
@@ -174,19 +178,21 @@ def trajectory_run(site: Site, entry: SiteVehicle, initial_speed: float) -> Run:
         site.profile,
         initial_speed,
         entry.merge_speed,
-        through=site.taper_end + RELIABILITY_SEARCH,
+        through=max(site.taper_end, site.convergence + SEARCH_HORIZON),
         elevation=site.elevation,
     )
 
 
 def merge_stations(site: Site) -> FloatArray:
-    """Stations for the merge probability from the convergence point: every MERGE_GRID metres to the end of the
-    taper, every SEARCH_GRID metres beyond, and the landmarks."""
-    far = site.taper_end + RELIABILITY_SEARCH
-    along = np.arange(site.convergence, site.taper_end, MERGE_GRID)
-    beyond = np.arange(site.taper_end, far, SEARCH_GRID)
-    landmarks = [site.convergence + site.available_length, site.taper_start, far]
-    return np.unique(np.concatenate([along, beyond, landmarks]))
+    """Stations for the merge probability from the convergence point: every MERGE_GRID metres over the first
+    NEAR_SEARCH metres and along the taper, every SEARCH_GRID metres on to the horizon, and the landmarks. The
+    grid past the convergence point does not depend on the lane provided."""
+    far = max(site.taper_end, site.convergence + SEARCH_HORIZON)
+    near = np.arange(site.convergence, site.convergence + NEAR_SEARCH, MERGE_GRID)
+    taper = np.arange(site.taper_start, site.taper_end, MERGE_GRID)
+    beyond = np.arange(site.convergence + NEAR_SEARCH, far, SEARCH_GRID)
+    landmarks = [site.convergence + site.available_length, site.taper_start, site.taper_end, far]
+    return np.unique(np.concatenate([near, taper, beyond, landmarks]))
 
 
 def merge_setting(site: Site, entry: SiteVehicle) -> MergeSetting:
@@ -204,7 +210,7 @@ def merge_setting(site: Site, entry: SiteVehicle) -> MergeSetting:
         stop_critical_gap=entry.stop_critical_gap,
         reliability=site.gaps.reliability,
         flow=entry.share * site.ramp_flow,
-        search_length=site.taper_end - site.convergence + RELIABILITY_SEARCH,  # as far as the trajectory
+        search_length=max(site.taper_end - site.convergence, SEARCH_HORIZON),  # as far as the trajectory
         behaviour=site.gaps.behaviour,
         taper_start=site.taper_start,
     )
@@ -362,9 +368,9 @@ def _site_assessment(
     results: tuple[VehicleAssessment, ...],
 ) -> SiteAssessment:
     governing = governing_vehicle(results)
-    at_convergence, at_lane_end = site.profile.elevation([site.convergence, site.taper_start])
-    rise = float(at_lane_end - at_convergence)
-    average_grade = rise / site.lane_length
+    span = site.lane_length if site.lane_length > 0 else site.taper_length  # a taper-type entrance with no lane
+    at_convergence, at_end = site.profile.elevation([site.convergence, site.convergence + span])
+    average_grade = float(at_end - at_convergence) / span
     policy = None
     if policy_table is not None:
         policy = policy_minimum(policy_table, site.design_speed, site.controlling_speed, average_grade)

@@ -90,7 +90,8 @@ class GeometryInput(_Strict):
     lane_length: str = Field(
         description=(
             "Acceleration length provided, from the convergence point to the start of the taper (parallel type), or"
-            " to the point of a taper-type entrance where the taper has narrowed to one lane width."
+            " to the point of a taper-type entrance where the taper has narrowed to one lane width; 0 for a taper-type"
+            " entrance with no parallel section."
         )
     )
     taper_length: str = Field(description="Length of the taper beyond the lane.")
@@ -488,9 +489,12 @@ def site_from_input(data: SiteInput, source: str) -> Site:
     lengths = {}
     for name in ("curve_end_to_convergence", "lane_length", "taper_length"):
         value = q(getattr(g, name), "length", f"geometry.{name}")
-        minimum = 0.0 if name == "curve_end_to_convergence" else 1.0
-        if value < minimum or value > 5000:
-            rule = "must not be negative" if name == "curve_end_to_convergence" else "must be a positive length"
+        # a taper-type entrance may have no parallel section at all
+        may_be_zero = name == "curve_end_to_convergence" or (name == "lane_length" and g.entrance == "taper")
+        if value < (0.0 if may_be_zero else 1.0) or value > 5000:
+            rule = "must not be negative" if may_be_zero else "must be a positive length"
+            if name == "lane_length":
+                rule += " (0 is allowed only for a taper-type entrance)"
             raise InputError(source, f"geometry.{name}", f"{rule} of at most 5000 m")
         lengths[name] = value
     elevation = 0.0 if g.elevation is None else q(g.elevation, "length", "geometry.elevation")

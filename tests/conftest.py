@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import copy
 import json
 import subprocess
 import sys
@@ -11,6 +12,8 @@ from typing import Any
 
 import pytest
 import yaml
+
+from mergecheck.site import Site, SiteInput, site_from_input
 
 DATA = Path(__file__).parent / "data"
 REPO = Path(__file__).parent.parent
@@ -87,3 +90,41 @@ def cli() -> Any:
 def repo() -> Path:
     """The repository root (for examples/)."""
     return REPO
+
+
+# An invented level parallel entrance for behaviour tests (demonstration data).
+BASE_SITE: dict[str, Any] = {
+    "name": "Test entrance (invented)",
+    "mainline": {
+        "design_speed": "100 km/h",
+        "operating_speed": "100 km/h",
+        "lanes": 3,
+        "adjacent_lane_flow": "1200 veh/h",
+    },
+    "ramp": {"controlling_speed": "60 km/h", "flow": "500 veh/h", "vehicles": {"passenger-car": 1.0}},
+    "geometry": {
+        "entrance": "parallel",
+        "curve_end_to_convergence": "100 m",
+        "lane_length": "250 m",
+        "taper_length": "90 m",
+        "profile": [{"from": "0 m", "grade": "0 %"}],
+    },
+}
+
+
+def _site(**changes: Any) -> Site:
+    """BASE with changes given as path__to__key=value."""
+    data = copy.deepcopy(BASE_SITE)
+    for path, value in changes.items():
+        node = data
+        *parents, key = path.split("__")
+        for name in parents:
+            node = node.setdefault(name, {})
+        node[key] = value
+    return site_from_input(SiteInput.model_validate(data), "test")
+
+
+@pytest.fixture(scope="session")
+def make_site() -> Any:
+    """BASE_SITE with changes given as path__to__key=value, as a Site."""
+    return _site

@@ -3,7 +3,6 @@ properties a reviewer checks first, and published field findings on where driver
 
 from __future__ import annotations
 
-import copy
 import math
 from typing import Any
 
@@ -14,37 +13,6 @@ from mergecheck.assessment import SiteAssessment, assess
 from mergecheck.gap_acceptance import CriticalGap, not_merged
 from mergecheck.headways import CowanM3
 from mergecheck.merge_behaviour import CELL, MergeBehaviour, Rules, rule_along, simulate, solve
-from mergecheck.site import Site, SiteInput, site_from_input
-
-BASE: dict[str, Any] = {
-    "name": "Test entrance (invented)",
-    "mainline": {
-        "design_speed": "100 km/h",
-        "operating_speed": "100 km/h",
-        "lanes": 3,
-        "adjacent_lane_flow": "1200 veh/h",
-    },
-    "ramp": {"controlling_speed": "60 km/h", "flow": "500 veh/h", "vehicles": {"passenger-car": 1.0}},
-    "geometry": {
-        "entrance": "parallel",
-        "curve_end_to_convergence": "100 m",
-        "lane_length": "250 m",
-        "taper_length": "90 m",
-        "profile": [{"from": "0 m", "grade": "0 %"}],
-    },
-}
-
-
-def site(**changes: Any) -> Site:
-    """BASE with changes given as path__to__key=value."""
-    data = copy.deepcopy(BASE)
-    for path, value in changes.items():
-        node = data
-        *parents, key = path.split("__")
-        for name in parents:
-            node = node.setdefault(name, {})
-        node[key] = value
-    return site_from_input(SiteInput.model_validate(data), "test")
 
 
 def positions(result: SiteAssessment) -> tuple[float, float, float]:
@@ -114,47 +82,47 @@ def test_without_yielding_pressure_or_speed_adjustment_the_recursion_is_the_clas
     assert np.max(np.abs(ours - classic)) < 3e-3
 
 
-def test_the_classic_model_stays_available() -> None:
+def test_the_classic_model_stays_available(make_site: Any) -> None:
     """merge_model: classic gives the earlier behaviour (no forced merges for a vehicle never eligible)."""
-    classic = assess(site(gap_acceptance={"merge_model": "classic"}))
-    active = assess(site())
+    classic = assess(make_site(gap_acceptance={"merge_model": "classic"}))
+    active = assess(make_site())
     assert classic.vehicles[0].merge.model == "classic" and active.vehicles[0].merge.model == "active"
     assert classic.vehicles[0].merge.by_lane_end < active.vehicles[0].merge.by_lane_end
 
 
-def test_an_empty_adjacent_lane_merges_everyone_where_merging_is_allowed() -> None:
-    result = assess(site(mainline__adjacent_lane_flow="0 veh/h")).vehicles[0]
+def test_an_empty_adjacent_lane_merges_everyone_where_merging_is_allowed(make_site: Any) -> None:
+    result = assess(make_site(mainline__adjacent_lane_flow="0 veh/h")).vehicles[0]
     assert result.merge.by_lane_end == 1.0 and result.merge.stops_per_h == 0.0
 
 
-def test_near_capacity_many_merges_are_forced_and_few_stop() -> None:
+def test_near_capacity_many_merges_are_forced_and_few_stop(make_site: Any) -> None:
     """Limiting case: 2,200 veh/h in the adjacent lane (near capacity, HCM basic-lane capacity about
     2,300-2,400 pc/h/ln, REFERENCES.md section 6): forced merges in the taper are a large share of the ramp
     flow, many times those at 600 veh/h, and most of the unmerged force in rather than stop."""
-    low = assess(site(mainline__adjacent_lane_flow="600 veh/h")).vehicles[0].merge
-    high = assess(site(mainline__adjacent_lane_flow="2200 veh/h")).vehicles[0].merge
+    low = assess(make_site(mainline__adjacent_lane_flow="600 veh/h")).vehicles[0].merge
+    high = assess(make_site(mainline__adjacent_lane_flow="2200 veh/h")).vehicles[0].merge
     assert high.forced_merges_per_h > 0.08 * 500 and high.forced_merges_per_h > 5 * low.forced_merges_per_h
     assert high.stops_per_h < 0.5 * (500 * (1 - high.by_lane_end))
 
 
-def test_a_vehicle_closer_to_stream_speed_never_needs_more_length() -> None:
+def test_a_vehicle_closer_to_stream_speed_never_needs_more_length(make_site: Any) -> None:
     """The perverse case of the classic model: a single-unit truck on a -9 % grade reached merge speed in
     59 m yet needed more length for gaps than on +1 %. On the same site, steeper upgrades (a slower truck)
     must never need less."""
     need = []
     for grade in ["-9 %", "-4 %", "0 %", "1 %"]:
-        v = assess(site(ramp__vehicles={"single-unit-truck": 1.0}, mainline__adjacent_lane_flow="1500 veh/h",
+        v = assess(make_site(ramp__vehicles={"single-unit-truck": 1.0}, mainline__adjacent_lane_flow="1500 veh/h",
                         geometry__profile=[{"from": "0 m", "grade": grade}])).vehicles[0]  # fmt: skip
         assert v.merge.length_for_reliability is not None
         need.append(v.merge.length_for_reliability)
     assert need == sorted(need)
 
 
-def test_raising_the_ramp_speed_never_increases_the_length_needed() -> None:
+def test_raising_the_ramp_speed_never_increases_the_length_needed(make_site: Any) -> None:
     """The perverse mitigation of the classic model (raise the controlling speed: bus 192 m to 211 m)."""
     need = []
     for speed in ["40 km/h", "50 km/h", "60 km/h", "70 km/h"]:
-        v = assess(site(ramp__vehicles={"bus": 1.0}, ramp__controlling_speed=speed)).vehicles[0]
+        v = assess(make_site(ramp__vehicles={"bus": 1.0}, ramp__controlling_speed=speed)).vehicles[0]
         assert v.merge.length_for_reliability is not None
         need.append(max(v.required_length or 0.0, v.merge.length_for_reliability))
     assert need == sorted(need, reverse=True)
@@ -177,7 +145,7 @@ def test_a_vehicle_slower_than_the_stream_needs_a_longer_gap() -> None:
     assert gap_needed(80, 0.1) > 1.5 * gap_needed(80, 0.6)
 
 
-def test_merges_at_free_flow_fall_mostly_in_the_first_half_of_the_lane() -> None:
+def test_merges_at_free_flow_fall_mostly_in_the_first_half_of_the_lane(make_site: Any) -> None:
     """Daamen, Loot and Hoogendoorn (2010), "Empirical analysis of merging behavior at freeway on-ramp",
     TRR 2188, 108-118 (abstract read, CONFIRMED): during free flow most vehicles merge in the first half of
     the acceleration lane; under congestion relatively more merge at its end. Li, Wang, Chen and Li (2007), ATS
@@ -187,7 +155,7 @@ def test_merges_at_free_flow_fall_mostly_in_the_first_half_of_the_lane() -> None
     made in the last quarter of the lane grows with the adjacent flow."""
     late = []
     for flow in [600, 1000, 1500]:
-        result = assess(site(mainline__adjacent_lane_flow=f"{flow} veh/h"))
+        result = assess(make_site(mainline__adjacent_lane_flow=f"{flow} veh/h"))
         median, _, _ = positions(result)
         assert 0.15 <= median <= 0.5
         curve, s = result.vehicles[0].merge.curve, result.site
@@ -197,33 +165,33 @@ def test_merges_at_free_flow_fall_mostly_in_the_first_half_of_the_lane() -> None
     assert late == sorted(late) and late[-1] > 1.5 * late[0]
 
 
-def test_flow_changes_the_spread_of_merge_positions_more_than_their_mean() -> None:
+def test_flow_changes_the_spread_of_merge_positions_more_than_their_mean(make_site: Any) -> None:
     """Chu, Miwa and Morikawa (2014), "An analysis of merging maneuvers at urban expressway merging sections",
     Procedia - Social and Behavioral Sciences 138, 105-115 (abstract read, CONFIRMED): traffic conditions do
     not significantly affect the mean merging position but its variation, which grows with mainline
     density. Checked: from 600 to 1,500 veh/h the mean position moves by less than 0.1 of the lane while its
     standard deviation grows."""
-    _, mean_low, sd_low = positions(assess(site(mainline__adjacent_lane_flow="600 veh/h")))
-    _, mean_high, sd_high = positions(assess(site(mainline__adjacent_lane_flow="1500 veh/h")))
+    _, mean_low, sd_low = positions(assess(make_site(mainline__adjacent_lane_flow="600 veh/h")))
+    _, mean_high, sd_high = positions(assess(make_site(mainline__adjacent_lane_flow="1500 veh/h")))
     assert abs(mean_high - mean_low) < 0.1
     assert sd_high > sd_low
 
 
-def test_a_lane_of_about_policy_length_works_at_moderate_flow() -> None:
+def test_a_lane_of_about_policy_length_works_at_moderate_flow(make_site: Any) -> None:
     """At 1,200 veh/h in the adjacent lane, well below capacity, a level parallel lane of 250 m (about the
     policy length for 100 km/h and a 60 km/h ramp curve, from memory) works in practice: nearly all drivers
     merge by its end and stops at the end of the taper are rare (common practice: ramps built to the policy
     length operate daily at such flows). Checked: at least 95 % by the end of the lane, stops under 2 % of
     the ramp flow, and the length for 95 % within 20 % of the lane provided."""
-    v = assess(site()).vehicles[0]
+    v = assess(make_site()).vehicles[0]
     assert v.merge.by_lane_end >= 0.95
     assert v.merge.stops_per_h < 0.02 * 500
     assert v.merge.length_for_reliability is not None and v.merge.length_for_reliability < 1.2 * 250
 
 
-def test_the_site_check_monte_carlo_agrees_with_the_analytic_figures() -> None:
+def test_the_site_check_monte_carlo_agrees_with_the_analytic_figures(make_site: Any) -> None:
     """assess(monte_carlo=N) draws the same behaviour along each vehicle's own trajectory."""
-    result = assess(site(ramp__vehicles={"passenger-car": 0.8, "semitrailer-fleet": 0.2}), monte_carlo=40_000)
+    result = assess(make_site(ramp__vehicles={"passenger-car": 0.8, "semitrailer-fleet": 0.2}), monte_carlo=40_000)
     for v in result.vehicles:
         assert v.monte_carlo is not None
         tolerance = 4 * v.monte_carlo.standard_error + 0.006

@@ -1,0 +1,45 @@
+"""A vehicle's need is a property of the vehicle and the site, not of the lane provided; taper-type entrances."""
+
+from __future__ import annotations
+
+from typing import Any
+
+import pytest
+
+from mergecheck.assessment import assess
+from mergecheck.errors import InputError
+
+
+@pytest.mark.parametrize("vehicle", ["passenger-car", "bus", "semitrailer-design"])
+def test_sweeping_the_lane_length_never_changes_a_vehicles_need(vehicle: str, make_site: Any) -> None:
+    """The search for merge speed and for the reliability target runs to a horizon measured from the
+    convergence point, not from the end of the taper (before, a heavy vehicle's need read "never" up to a
+    2,400 ft lane and 12,556 ft beyond it). The design truck on the level at 100 km/h needs well over a
+    kilometre; its need must not move by more than half a metre (station-grid interpolation) whatever the
+    lane provided."""
+    needs = []
+    for length in ["150 m", "400 m", "900 m", "2500 m"]:
+        v = assess(make_site(geometry__lane_length=length, ramp__vehicles={vehicle: 1.0})).vehicles[0]
+        assert v.required_length is not None and v.merge.length_for_reliability is not None
+        needs.append((v.required_length, v.merge.length_for_reliability))
+    for required, for_gaps in needs[1:]:
+        assert required == pytest.approx(needs[0][0], abs=0.5)
+        assert for_gaps == pytest.approx(needs[0][1], abs=0.5)
+    if vehicle == "semitrailer-design":
+        assert needs[0][0] > 1000.0  # the case that used to fall off the search
+
+
+def test_a_taper_type_entrance_may_have_no_parallel_section(make_site: Any) -> None:
+    """lane_length 0 is a taper-type entrance with no parallel lane: it is checked (the taper credited as the
+    site says), its average grade taken over the taper; a parallel-type entrance still needs a lane."""
+    taper = make_site(
+        geometry__entrance="taper", geometry__lane_length="0 m", geometry__taper_length="250 m",
+        criteria={"taper_credit": 1.0},
+    )  # fmt: skip
+    result = assess(taper)
+    car = result.vehicles[0]
+    assert car.available_length == pytest.approx(250.0)
+    assert result.average_grade == pytest.approx(0.0)
+    assert car.merge.by_taper_end > 0.9  # the taper is where drivers merge: every gap there may be forced
+    with pytest.raises(InputError, match=r"geometry\.lane_length.*taper-type"):
+        make_site(geometry__lane_length="0 m")
