@@ -204,7 +204,7 @@ def _accel(args: argparse.Namespace, out: Console, err: Console) -> int:
         raise InputError(
             "command line" if args.elevation else args.profile, "elevation", "must lie between -500 m and 5000 m"
         )
-    trajectory = accelerate(vehicle.model, profile, initial, target, elevation=elevation)
+    trajectory = accelerate(vehicle.model, profile, initial, target, elevation=elevation, slowing=target < initial)
     run = AccelerationRun(vehicle=vehicle, profile=profile, elevation=elevation, trajectory=trajectory)
     return _show(
         args, out, lambda: json_report.acceleration_json(run), lambda: terminal.acceleration_view(run, args.units)

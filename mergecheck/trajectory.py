@@ -222,6 +222,8 @@ class Run:
     start: float = 0.0
     through: float | None = None
     elevation: float = 0.0
+    slowing: bool = False
+    """Look for the speed falling to the target (a vehicle losing speed on an upgrade) instead of rising to it."""
 
 
 def equilibrium_speeds(
@@ -276,6 +278,7 @@ def accelerate(
     *,
     start: float = 0.0,
     through: float | None = None,
+    slowing: bool = False,
     elevation: float = 0.0,
     output_step: float = 1.0,
     max_distance: float = 20_000.0,
@@ -297,6 +300,11 @@ def accelerate(
     through
         Integrate at least to this station, even after the target is reached
         (to report speeds at landmarks). [m]
+    slowing
+        Find where the speed falls to the target (a vehicle entering an upgrade
+        faster than it can hold, the speed-reduction side of a critical length
+        of grade) rather than where it rises to it; the target is then out of
+        reach when the crawl speed lies above it. [-]
     elevation
         Elevation of station 0 above sea level, for air density and engine
         power. [m]
@@ -322,7 +330,7 @@ def accelerate(
     >>> round(run.distance, 6), round(run.duration, 6)
     (200.0, 20.0)
     """
-    run = Run(model, profile, initial_speed, target_speed, start, through, elevation)
+    run = Run(model, profile, initial_speed, target_speed, start, through, elevation, slowing)
     return accelerate_many([run], output_step=output_step, max_distance=max_distance)[0]
 
 
@@ -365,7 +373,8 @@ class _State:
         self.target = np.array([r.target_speed for r in runs], dtype=float)
         self.x = self.start.copy()
         self.y = np.stack([0.5 * self.v0**2, np.zeros(n)])  # u = v^2/2 and t
-        self.reached = self.v0 >= self.target
+        self.slowing = np.array([r.slowing for r in runs], dtype=bool)
+        self.reached = np.where(self.slowing, self.v0 <= self.target, self.v0 >= self.target)
         self.target_x = np.where(self.reached, self.start, np.nan)
         self.target_t = np.where(self.reached, 0.0, np.nan)
         self.crawl = np.full(n, np.nan)
@@ -472,7 +481,9 @@ class _State:
         y0, y1 = y[:, taken], y_new[:, taken]
         q = np.einsum("sj,s...->j...", _P, k[:, :, taken])  # (4, 2, m): continuous extension
         # the target speed, first reached inside this step
-        hit = np.flatnonzero(~self.reached[cols] & (y1[0] >= 0.5 * self.target[cols] ** 2))
+        level = 0.5 * self.target[cols] ** 2
+        crossed = np.where(self.slowing[cols], y1[0] <= level, y1[0] >= level)
+        hit = np.flatnonzero(~self.reached[cols] & crossed)
         if hit.size:
             sigma = _crossing(y0[0, hit], h[hit], q[:, 0, hit], 0.5 * self.target[cols[hit]] ** 2)
             self.target_x[cols[hit]] = x0[hit] + sigma * h[hit]
@@ -505,7 +516,8 @@ class _State:
             c = cols[again]
             height = self.base[c] + self.profiles.take(c).elevation(x[again])
             settle = equilibrium_speeds(self.models.take(c), self.final_grade[c], height, v[again])
-            self.crawl[c] = np.where(settle < self.target[c], settle, np.nan)
+            short = np.where(self.slowing[c], settle > self.target[c], settle < self.target[c])
+            self.crawl[c] = np.where(short, settle, np.nan)
             self.crawl_checked_at[c] = x[again]
         crawl = self.crawl[cols]
         with np.errstate(invalid="ignore"):

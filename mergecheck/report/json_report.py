@@ -31,6 +31,7 @@ def acceleration_json(run: AccelerationRun) -> dict[str, Any]:
         "model": run.vehicle.model_name,
         "initial_speed_m_s": _number(trajectory.initial_speed),
         "target_speed_m_s": _number(trajectory.target_speed),
+        "direction": "slowing" if trajectory.target_speed < trajectory.initial_speed else "accelerating",
         "reaches_target": trajectory.reaches_target,
         "distance_m": _number(trajectory.distance, 3),
         "time_s": _number(trajectory.duration, 3),

@@ -36,7 +36,16 @@ def acceleration_view(run: AccelerationRun, system: UnitSystem) -> RenderableTyp
     trajectory = run.trajectory
     vehicle = run.vehicle
     start, end = trajectory.start, trajectory.end
-    if trajectory.reaches_target:
+    slowing = trajectory.target_speed < trajectory.initial_speed
+    if trajectory.reaches_target and slowing:
+        verdict = Text(
+            f"Falls to {show(trajectory.target_speed, 'speed', system)} after "
+            f"{show(trajectory.distance, 'length', system)} in {show(trajectory.duration, 'time', system)} "
+            f"(a loss of {show(trajectory.initial_speed - trajectory.target_speed, 'speed', system)}: the critical "
+            "length of grade for that reduction).",
+            style="bold yellow",
+        )
+    elif trajectory.reaches_target:
         verdict = Text(
             f"Reaches {show(trajectory.target_speed, 'speed', system)} after "
             f"{show(trajectory.distance, 'length', system)} in {show(trajectory.duration, 'time', system)}.",
@@ -44,6 +53,12 @@ def acceleration_view(run: AccelerationRun, system: UnitSystem) -> RenderableTyp
         )
     elif trajectory.stalled:
         verdict = Text("Cannot move on this grade: the vehicle stalls.", style="bold red")
+    elif slowing:
+        verdict = Text(
+            f"Never falls to {show(trajectory.target_speed, 'speed', system)}: it settles at its crawl speed of "
+            f"{show(trajectory.crawl_speed, 'speed', system)} on the final grade.",
+            style="bold green",
+        )
     else:
         crawl = trajectory.crawl_speed
         verdict = Text(
