@@ -178,6 +178,7 @@ def trajectory_run(site: Site, entry: SiteVehicle, initial_speed: float) -> Run:
         site.profile,
         initial_speed,
         entry.merge_speed,
+        start=site.convergence if site.acceleration_from == "convergence" else 0.0,
         through=max(site.taper_end, site.convergence + SEARCH_HORIZON),
         elevation=site.elevation,
     )
@@ -417,6 +418,7 @@ def _assumptions(
             else "not given: taken equal to the design speed (the conservative case)",
         ),
         Assumption("Speed leaving the controlling curve", show(initial, "speed", "si"), initial_basis),
+        _before_the_nose(site, results, initial),
         Assumption(
             "Merge speed",
             "; ".join(f"{r.vehicle.id} {show(r.merge_speed, 'speed', 'si')}" for r in results),
@@ -521,6 +523,28 @@ def _assumptions(
         items.append(Assumption("Policy table", policy.table.title, policy.table.source))
         items.append(Assumption("Policy interpolation", "see rule", policy.table.interpolation))
     return tuple(items)
+
+
+def _before_the_nose(site: Site, results: tuple[VehicleAssessment, ...], initial: float) -> Assumption:
+    """Speed gained between the end of the controlling curve and the convergence point, and whether it counts."""
+    before = show(site.convergence, "length", "si")
+    if site.acceleration_from == "convergence":
+        return Assumption(
+            "Speed gained before the convergence point",
+            f"none counted: every vehicle is taken at {show(initial, 'speed', 'si')} at the convergence point "
+            f"({before} of ramp before it ignored)",
+            "site criterion acceleration_from: convergence (policy-strict, as the policy tables assume)",
+        )
+    gained = "; ".join(
+        f"{r.vehicle.id} {show(r.initial_speed, 'speed', 'si')} to {show(r.speed_at_convergence, 'speed', 'si')}"
+        for r in results
+    )
+    return Assumption(
+        "Speed gained before the convergence point",
+        f"credited over the {before} of ramp before the nose: {gained}",
+        "the vehicle accelerates along the ramp (default); the policy tables assume the initial speed at the "
+        "convergence point: set criteria.acceleration_from: convergence for that reading",
+    )
 
 
 def _behaviour_assumption(site: Site) -> Assumption:

@@ -272,14 +272,55 @@ def policy_minimum(
         level = _bilinear(table.highway_speeds, table.ramp_speeds, table.lengths, design_speed, controlling_speed)
     if level is None:
         return value(None, None, None, "the combination of highway and ramp speeds is outside the table")
-    for block in table.grade_factors:
-        if block.min_grade - 1e-9 <= grade <= block.max_grade + 1e-9:
-            if controlling_speed is None:
-                return value(None, level, None, "the grade factors have no column for a stop")
-            factor = _bilinear(block.highway_speeds, block.ramp_speeds, block.factors, design_speed, controlling_speed)
-            if factor is None:
-                return value(None, level, None, "no grade factor for this combination of speeds")
-            return value(level * factor, level, factor, f"level value times grade factor {factor:.2f}")
     if abs(grade) < FLAT_GRADE_LIMIT:
         return value(level, level, 1.0, "flat-grade value (grade within 3 %)")
-    return value(None, level, None, f"no grade factors for a {grade:+.1%} grade in this table")
+    if controlling_speed is None:
+        return value(None, level, None, "the grade factors have no column for a stop")
+    factor, note = _grade_factor(table, design_speed, controlling_speed, grade)
+    if factor is None:
+        return value(None, level, None, note)
+    return value(level * factor, level, factor, f"level value times grade factor {factor:.2f} ({note})")
+
+
+def _grade_factor(
+    table: PolicyTable, design_speed: float, controlling_speed: float, grade: float
+) -> tuple[float | None, str]:
+    """Grade factor for a grade at or beyond the flat limit, and how it was found.
+
+    Within a block, the block's factor (bilinear in the two speeds). Between two blocks on the same side
+    (for example 4 % and 5 % between the 3-4 % and 5-6 % upgrade blocks), linear in the grade between the
+    factor at the near end of each block. Beyond the steepest block the table does not reach: no factor
+    (not extrapolated).
+    """
+    side = [b for b in table.grade_factors if (b.min_grade > 0) == (grade > 0)]
+    if not side:
+        return None, f"the table has no grade factors for {'upgrades' if grade > 0 else 'downgrades'}"
+    steepness = abs(grade)
+    blocks = sorted(side, key=lambda b: min(abs(b.min_grade), abs(b.max_grade)))
+
+    def factor(block: GradeFactors) -> float | None:
+        return _bilinear(block.highway_speeds, block.ramp_speeds, block.factors, design_speed, controlling_speed)
+
+    for block in blocks:
+        low, high = sorted((abs(block.min_grade), abs(block.max_grade)))
+        if low - 1e-9 <= steepness <= high + 1e-9:
+            f = factor(block)
+            if f is None:
+                return None, "no grade factor for this combination of speeds in the table"
+            return f, f"block {block.min_grade:+.0%} to {block.max_grade:+.0%}"
+    for below, above in itertools.pairwise(blocks):
+        top = max(abs(below.min_grade), abs(below.max_grade))
+        bottom = min(abs(above.min_grade), abs(above.max_grade))
+        if top < steepness < bottom:
+            f0, f1 = factor(below), factor(above)
+            if f0 is None or f1 is None:
+                return None, "no grade factor for this combination of speeds in the table"
+            w = (steepness - top) / (bottom - top)
+            return f0 + w * (f1 - f0), f"interpolated in grade between the {top:.0%} and {bottom:.0%} block ends"
+    steepest = max(max(abs(b.min_grade), abs(b.max_grade)) for b in blocks)
+    if steepness > steepest:
+        return (
+            None,
+            f"a {grade:+.2%} grade is beyond the table's steepest grade factor ({steepest:.0%}); not extrapolated",
+        )
+    return None, f"no grade factors for a {grade:+.2%} grade in this table"

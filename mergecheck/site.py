@@ -126,6 +126,14 @@ class CriteriaInput(_Strict):
         le=1.0,
         description="Share of the taper counted as acceleration length (0: the policy-table definition).",
     )
+    acceleration_from: Literal["curve_end", "convergence"] = Field(
+        default="curve_end",
+        description=(
+            "Where acceleration is counted from: 'curve_end' (default: the vehicle speeds up along the ramp before"
+            " the convergence point, as it does) or 'convergence' (policy-strict: the vehicle is still at its initial"
+            " speed at the convergence point, as the policy tables assume)."
+        ),
+    )
     vehicles: dict[str, VehicleCriteriaInput] = Field(default_factory=dict, description="Per-vehicle criteria.")
 
 
@@ -373,6 +381,8 @@ class Site:
     flag_speed_differential: float
     """[m/s]"""
     taper_credit: float
+    acceleration_from: Literal["curve_end", "convergence"] = "curve_end"
+    """Where acceleration is counted from (criteria.acceleration_from)."""
     gaps: GapSettings
     merge: MergeAreaSettings
     policy_file: str | None
@@ -528,6 +538,7 @@ def site_from_input(data: SiteInput, source: str) -> Site:
         profile=profile,
         flag_speed_differential=flag,
         taper_credit=data.criteria.taper_credit,
+        acceleration_from=data.criteria.acceleration_from,
         gaps=gaps,
         merge=_merge_settings(data, operating, controlling, adjacent, source),
         policy_file=_policy_path(data.policy, base_dir),

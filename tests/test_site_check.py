@@ -172,7 +172,17 @@ def test_grade_factor_applied_within_block() -> None:
     assert value.minimum_length == pytest.approx(910 * FT * 1.5)
     steep = policy_minimum(load_policy(None), 60 * MPH, 30 * MPH, 0.055)
     assert steep.grade_factor == pytest.approx(1.9)  # 5-6 % block (FROM MEMORY, about 50 % sure)
+    # between the blocks, linear in grade from the 4 % end (1.5) to the 5 % end (1.9): 1.7 at 4.5 % (by hand);
+    # 4.99 % (printed +5.0 %) is no longer refused
     between = policy_minimum(load_policy(None), 60 * MPH, 30 * MPH, 0.045)
-    assert between.minimum_length is None and "no grade factors" in between.note
+    assert between.grade_factor == pytest.approx(1.7) and "interpolated in grade" in between.note
+    almost = policy_minimum(load_policy(None), 60 * MPH, 30 * MPH, 0.0499)
+    assert almost.grade_factor == pytest.approx(1.5 + 0.99 * 0.4)
+    beyond = policy_minimum(load_policy(None), 60 * MPH, 30 * MPH, 0.07)
+    assert (
+        beyond.minimum_length is None
+        and "beyond the table's steepest" in beyond.note
+        and "not extrapolated" in beyond.note
+    )
     down = policy_minimum(load_policy(None), 60 * MPH, 30 * MPH, -0.035)
     assert down.minimum_length == pytest.approx(910 * FT * 0.6)  # 3-4 % downgrade factor 0.6 (FROM MEMORY)

@@ -43,3 +43,22 @@ def test_a_taper_type_entrance_may_have_no_parallel_section(make_site: Any) -> N
     assert car.merge.by_taper_end > 0.9  # the taper is where drivers merge: every gap there may be forced
     with pytest.raises(InputError, match=r"geometry\.lane_length.*taper-type"):
         make_site(geometry__lane_length="0 m")
+
+
+def test_speed_gained_before_the_nose_is_stated_and_the_policy_strict_reading_offered(make_site: Any) -> None:
+    """With 300 m of ramp before the convergence point a car gains speed the policy tables do not credit (they
+    take the initial speed at the convergence point, Green Book 2011 acceleration-length table, from memory).
+    The report states the gain; criteria.acceleration_from: convergence gives the policy-strict reading, which
+    needs more length."""
+    free = assess(make_site(geometry__curve_end_to_convergence="300 m"))
+    strict = assess(
+        make_site(geometry__curve_end_to_convergence="300 m", criteria={"acceleration_from": "convergence"})
+    )
+    assumption = next(a for a in free.assumptions if a.name == "Speed gained before the convergence point")
+    assert "credited over the 300 m" in assumption.value
+    car, strict_car = free.vehicles[0], strict.vehicles[0]
+    assert car.speed_at_convergence > car.initial_speed + 3.0  # m/s gained before the nose
+    assert strict_car.speed_at_convergence == pytest.approx(strict_car.initial_speed)
+    assert strict_car.required_length is not None and car.required_length is not None
+    assert strict_car.required_length > car.required_length + 50.0
+    assert "policy-strict" in next(a for a in strict.assumptions if a.name.startswith("Speed gained")).source
