@@ -413,9 +413,7 @@ def _assumptions(
         Assumption(
             "Mainline operating speed at the merge",
             show(site.operating_speed, "speed", "si"),
-            "site file"
-            if site.operating_speed_given
-            else "not given: taken equal to the design speed (the conservative case)",
+            site.operating_speed_basis,
         ),
         Assumption("Speed leaving the controlling curve", show(initial, "speed", "si"), initial_basis),
         _before_the_nose(site, results, initial),

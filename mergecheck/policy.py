@@ -67,6 +67,7 @@ class _PolicyFile(BaseModel):
     units: _Units
     highway_speeds: list[float] = Field(min_length=2)
     merge_speeds: list[float] = Field(min_length=2)
+    running_speeds: list[float] | None = None
     ramp_speeds: list[float | str] = Field(min_length=1)
     ramp_initial_speeds: list[float]
     lengths: list[list[float | None]]
@@ -77,6 +78,8 @@ class _PolicyFile(BaseModel):
     def _shape(self) -> _PolicyFile:
         if len(self.merge_speeds) != len(self.highway_speeds):
             raise ValueError("merge_speeds needs one value per highway speed")
+        if self.running_speeds is not None and len(self.running_speeds) != len(self.highway_speeds):
+            raise ValueError("running_speeds needs one value per highway speed")
         if len(self.ramp_initial_speeds) != len(self.ramp_speeds):
             raise ValueError("ramp_initial_speeds needs one value per ramp speed")
         if len(self.lengths) != len(self.highway_speeds) or any(len(r) != len(self.ramp_speeds) for r in self.lengths):
@@ -114,6 +117,8 @@ class PolicyTable:
     origin: str
     highway_speeds: tuple[float, ...]
     merge_speeds: tuple[float, ...]
+    running_speeds: tuple[float, ...] | None
+    """Average running speed of the highway for each design speed, if the table gives it. [m/s]"""
     ramp_speeds: tuple[float, ...]
     """Numeric ramp controlling speeds (the stop column is kept apart). [m/s]"""
     ramp_initial_speeds: tuple[float, ...]
@@ -180,6 +185,7 @@ def _load_policy(path: str | None) -> PolicyTable:
         origin=origin,
         highway_speeds=tuple(v * speed for v in data.highway_speeds),
         merge_speeds=tuple(v * speed for v in data.merge_speeds),
+        running_speeds=None if data.running_speeds is None else tuple(v * speed for v in data.running_speeds),
         ramp_speeds=tuple(float(data.ramp_speeds[i]) * speed for i in numeric),
         ramp_initial_speeds=tuple(data.ramp_initial_speeds[i] * speed for i in numeric),
         lengths=tuple(tuple(scaled(row[i], length) for i in numeric) for row in data.lengths),
@@ -236,6 +242,13 @@ def _linear(xs: tuple[float, ...], ys: tuple[float | None, ...], x: float) -> fl
     if ys[i] is None or (w > 0 and ys[j] is None):
         return None
     return (1 - w) * ys[i] + (w * ys[j] if w > 0 else 0.0)  # type: ignore[operator]
+
+
+def running_speed_for(table: PolicyTable, design_speed: float) -> float | None:
+    """The table's average running speed for a highway design speed, interpolated; None if it has none. [m/s]"""
+    if table.running_speeds is None:
+        return None
+    return _linear(table.highway_speeds, tuple(table.running_speeds), design_speed)
 
 
 def initial_speed_for(table: PolicyTable, controlling_speed: float | None) -> float | None:

@@ -23,6 +23,7 @@ from .errors import InputError
 from .gap_acceptance import CriticalGap, default_critical_gaps
 from .inputs import GradePoint, build_profile, read_yaml, validated
 from .merge_behaviour import MergeBehaviour
+from .policy import load_policy, running_speed_for
 from .profile import VerticalProfile
 from .units import parse_quantity
 from .vehicles import DesignVehicle, load_vehicle
@@ -357,6 +358,8 @@ class Site:
     operating_speed: float
     """[m/s]"""
     operating_speed_given: bool
+    operating_speed_basis: str = "site file"
+    """Where the operating speed comes from (the site file, or the policy's running speed)."""
     lanes: int
     lanes_downstream: int | None
     adjacent_lane_flow: float
@@ -417,11 +420,12 @@ def site_from_input(data: SiteInput, source: str) -> Site:
         return parse_quantity(text, kind, source=source, field=field)
 
     design = q(data.mainline.design_speed, "speed", "mainline.design_speed")
-    operating = (
-        design
-        if data.mainline.operating_speed is None
-        else q(data.mainline.operating_speed, "speed", "mainline.operating_speed")
-    )
+    base_dir = Path(source).parent
+    if data.mainline.operating_speed is None:
+        operating, operating_basis = _default_operating_speed(design, _policy_path(data.policy, base_dir))
+    else:
+        operating = q(data.mainline.operating_speed, "speed", "mainline.operating_speed")
+        operating_basis = "site file"
     for field, value in (("mainline.design_speed", design), ("mainline.operating_speed", operating)):
         if not 40 / 3.6 <= value <= 160 / 3.6:
             raise InputError(source, field, "must lie between 40 and 160 km/h for a freeway or expressway merge")
@@ -523,6 +527,7 @@ def site_from_input(data: SiteInput, source: str) -> Site:
         design_speed=design,
         operating_speed=operating,
         operating_speed_given=data.mainline.operating_speed is not None,
+        operating_speed_basis=operating_basis,
         lanes=data.mainline.lanes,
         lanes_downstream=data.mainline.lanes_downstream,
         adjacent_lane_flow=adjacent,
@@ -680,6 +685,27 @@ def _merge_settings(
         jam_density=jam,
         demand_profile=profile,
         demand_profile_given=m.demand_profile is not None,
+    )
+
+
+def _default_operating_speed(design: float, policy_file: str | None) -> tuple[float, str]:
+    """The operating speed at the merge when the site gives none: the policy table's average running speed for
+    the design speed (the speed its merge speeds are set against), else the design speed."""
+    if policy_file is not None and policy_file.strip().lower() == "none":
+        return design, "not given, and no policy table: taken equal to the design speed (the conservative case)"
+    try:
+        table = load_policy(policy_file)
+    except InputError:
+        return design, "not given: taken equal to the design speed (the policy table could not be read)"
+    running = running_speed_for(table, design)
+    if running is None:
+        return design, (
+            "not given, and the policy table gives no running speed for this design speed: taken equal to the design"
+            " speed (the conservative case)"
+        )
+    return running, (
+        f"not given: the average running speed the policy table sets its merge speeds against for this design speed"
+        f" ({table.title}); give mainline.operating_speed where it is known"
     )
 
 

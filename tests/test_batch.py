@@ -145,7 +145,7 @@ def _invented_sites(count: int, seed: int) -> list[dict[str, Any]]:
             "name": f"Invented site {i}",
             "mainline": {"design_speed": f"{design} km/h", "lanes": int(rng.integers(2, 4)),
                          "adjacent_lane_flow": f"{rng.uniform(0, 1700):.1f} veh/h"},
-            "ramp": {"controlling_speed": "stop" if i % 7 == 0 else f"{rng.choice([30, 50, 70])} km/h",
+            "ramp": {"controlling_speed": "stop" if i % 7 == 0 else f"{rng.choice([30, 50, 60])} km/h",
                      "flow": f"{rng.uniform(100, 1000):.0f} veh/h",
                      "vehicles": {"passenger-car": 0.8, "bus": 0.05, "semitrailer-fleet": 0.15}},
             "geometry": {"entrance": "parallel", "curve_end_to_convergence": f"{rng.uniform(30, 200):.0f} m",

@@ -62,3 +62,23 @@ def test_speed_gained_before_the_nose_is_stated_and_the_policy_strict_reading_of
     assert strict_car.required_length is not None and car.required_length is not None
     assert strict_car.required_length > car.required_length + 50.0
     assert "policy-strict" in next(a for a in strict.assumptions if a.name.startswith("Speed gained")).source
+
+
+def test_the_default_operating_speed_is_the_policys_running_speed(make_site: Any) -> None:
+    """Not given, the operating speed at the merge is the average running speed the policy table sets its merge
+    speeds against (Green Book 2011: merge speeds about 5 mph below the running speed; 100 km/h = 62.1 mph
+    between the 60 and 65 mph rows, running 52 and 55 mph, so about 53.3 mph; from memory), stated as an
+    assumption, never the design speed silently. The issue's case: a level parallel lane of 300 m at 100 km/h
+    design, against a policy minimum of about 244 m, has the car SHORT when the stream runs at the design speed
+    and within the lane at the running speed."""
+    data_free = {"design_speed": "100 km/h", "lanes": 3, "adjacent_lane_flow": "600 veh/h"}
+    default = assess(make_site(mainline=data_free, geometry__lane_length="300 m"))
+    assert default.site.operating_speed == pytest.approx((52 + (100 / 3.6 / 0.44704 - 60) / 5 * 3) * 0.44704, rel=1e-6)
+    basis = next(a for a in default.assumptions if a.name == "Mainline operating speed at the merge").source
+    assert "average running speed" in basis and "give mainline.operating_speed" in basis
+    at_design = assess(make_site(mainline={**data_free, "operating_speed": "100 km/h"}, geometry__lane_length="300 m"))
+    car, car_at_design = default.vehicles[0], at_design.vehicles[0]
+    assert car.required_length is not None and car_at_design.required_length is not None
+    assert car.required_length < 300.0 < car_at_design.required_length
+    no_table = assess(make_site(mainline=data_free, policy="none"))
+    assert no_table.site.operating_speed == pytest.approx(100 / 3.6)  # no table: the conservative case, said so
