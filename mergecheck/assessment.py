@@ -129,6 +129,15 @@ class SiteAssessment:
     vehicles: tuple[VehicleAssessment, ...]
     governing: VehicleAssessment
     verdict: SiteVerdict
+    """The site's verdict, on the basis named by ``basis``."""
+    basis: Literal["policy", "performance"]
+    """The basis the verdict is on: the site's choice, or the performance basis where no policy value applies."""
+    policy_verdict: Literal["meets", "short", "none"]
+    """Policy basis: the lane (as the table measures it) against the table's length; 'none' without a value."""
+    policy_reason: str
+    """One line: what the policy basis compared, or exactly why it gives no value."""
+    performance_verdict: SiteVerdict
+    """Performance basis: every design vehicle meets its own computed need ('short' if any falls short)."""
     initial_speed: float
     """Speed leaving the controlling curve (0 from a stop). [m/s]"""
     initial_speed_basis: str
@@ -375,18 +384,41 @@ def _site_assessment(
     policy = None
     if policy_table is not None:
         policy = policy_minimum(policy_table, site.design_speed, site.controlling_speed, average_grade)
-    verdict: SiteVerdict = "meets" if all(r.verdict == "meets" for r in results) else "short"
+    performance: SiteVerdict = "meets" if all(r.verdict == "meets" for r in results) else "short"
+    policy_verdict, policy_reason = _policy_basis(site, policy)
+    basis: Literal["policy", "performance"] = "performance"
+    verdict = performance
+    if site.verdict_basis == "policy" and policy_verdict != "none":
+        basis, verdict = "policy", policy_verdict
     return SiteAssessment(
         site=site,
         vehicles=results,
         governing=governing,
         verdict=verdict,
+        basis=basis,
+        policy_verdict=policy_verdict,
+        policy_reason=policy_reason,
+        performance_verdict=performance,
         initial_speed=initial,
         initial_speed_basis=initial_basis,
         average_grade=average_grade,
         policy=policy,
         merge_area=merge_operations(site, {r.vehicle.id: r.speed_at_taper_start for r in results}),
         cautions=CAUTIONS,
+    )
+
+
+def _policy_basis(site: Site, policy: PolicyValue | None) -> tuple[Literal["meets", "short", "none"], str]:
+    """The policy basis: the lane provided, measured as the table measures it, against the table's length."""
+    if policy is None:
+        return "none", "no policy table applies (policy: none): the performance basis decides"
+    if policy.minimum_length is None:
+        return "none", f"the policy table gives no length here: {policy.note}; the performance basis decides"
+    lane, need = site.lane_length, policy.minimum_length
+    verdict: Literal["meets", "short"] = "meets" if lane >= need - 1e-6 else "short"
+    return verdict, (
+        f"lane {show(lane, 'length', 'si')} (convergence point to the start of the taper, as the table measures it)"
+        f" against the table's {show(need, 'length', 'si')} ({policy.note})"
     )
 
 
@@ -576,7 +608,7 @@ def summary_sentence(assessment: SiteAssessment, system: Literal["si", "us"]) ->
     g = assessment.governing
     site = assessment.site
     lane = show(site.available_length, "length", system)
-    if assessment.verdict == "meets":
+    if assessment.performance_verdict == "meets":
         return (
             f"All design vehicles reach merge speed and find a gap within the {lane} provided; {g.vehicle.id} "
             f"governs, needing {show(g.length_needed, 'length', system)}."

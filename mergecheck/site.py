@@ -110,6 +110,18 @@ class VehicleCriteriaInput(_Strict):
     )
 
 
+class HeavyVehicleCriteriaInput(_Strict):
+    """Criteria for heavy design vehicles (categories truck, bus, recreational)."""
+
+    merge_speed_differential: str = Field(
+        default="16 km/h",
+        description=(
+            "Merge speed of a heavy vehicle = operating speed minus this (default 16 km/h, the 10 mph speed reduction"
+            " tolerated for trucks in the critical length of grade, common practice); a per-vehicle value overrides it."
+        ),
+    )
+
+
 class CriteriaInput(_Strict):
     """What counts as meeting the check."""
 
@@ -126,6 +138,18 @@ class CriteriaInput(_Strict):
         ge=0.0,
         le=1.0,
         description="Share of the taper counted as acceleration length (0: the policy-table definition).",
+    )
+    heavy_vehicles: HeavyVehicleCriteriaInput = Field(
+        default_factory=lambda: HeavyVehicleCriteriaInput(),
+        description="Criteria for trucks, buses and recreational vehicles (the performance basis).",
+    )
+    verdict_basis: Literal["policy", "performance"] = Field(
+        default="policy",
+        description=(
+            "Which basis decides the site's verdict: 'policy' (default: the policy table's length against the lane,"
+            " as the table measures it; the performance basis is reported beside it) or 'performance' (every design"
+            " vehicle's computed need). Without a policy value the performance basis decides, and the report says so."
+        ),
     )
     acceleration_from: Literal["curve_end", "convergence"] = Field(
         default="curve_end",
@@ -386,6 +410,8 @@ class Site:
     taper_credit: float
     acceleration_from: Literal["curve_end", "convergence"] = "curve_end"
     """Where acceleration is counted from (criteria.acceleration_from)."""
+    verdict_basis: Literal["policy", "performance"] = "policy"
+    """Which basis decides the site's verdict (criteria.verdict_basis)."""
     gaps: GapSettings
     merge: MergeAreaSettings
     policy_file: str | None
@@ -456,6 +482,11 @@ def site_from_input(data: SiteInput, source: str) -> Site:
         raise InputError(source, "ramp.flow", "must lie between 0 and 3000 veh/h")
 
     base_differential = q(data.criteria.merge_speed_differential, "speed", "criteria.merge_speed_differential")
+    heavy_differential = q(
+        data.criteria.heavy_vehicles.merge_speed_differential,
+        "speed",
+        "criteria.heavy_vehicles.merge_speed_differential",
+    )
     flag = q(data.criteria.flag_speed_differential, "speed", "criteria.flag_speed_differential")
     if flag <= 0:
         raise InputError(source, "criteria.flag_speed_differential", "must be positive")
@@ -475,18 +506,25 @@ def site_from_input(data: SiteInput, source: str) -> Site:
         if not 0 < share <= 1:
             raise InputError(source, field, "a share must be greater than 0 and at most 1")
         vehicle = load_vehicle(ref, relative_to=base_dir, source=source, field=field)
-        differential = base_differential
+        heavy = vehicle.category != "passenger-car"
+        differential = heavy_differential if heavy else base_differential
         override = data.criteria.vehicles.get(ref)
         if override is not None and override.merge_speed_differential is not None:
             differential = q(
                 override.merge_speed_differential, "speed", f"criteria.vehicles.{ref}.merge_speed_differential"
             )
-        where = f"criteria.vehicles.{ref}.merge_speed_differential" if override else "criteria.merge_speed_differential"
+        where = (
+            f"criteria.vehicles.{ref}.merge_speed_differential"
+            if override is not None and override.merge_speed_differential is not None
+            else "criteria.heavy_vehicles.merge_speed_differential"
+            if heavy
+            else "criteria.merge_speed_differential"
+        )
         if not 0 <= differential < operating:
             raise InputError(source, where, "must be at least 0 and below the operating speed")
         merge = operating - differential
         start = initial if initial is not None else (controlling or 0.0)
-        if merge <= start:
+        if merge <= start and not heavy:  # a heavy vehicle may leave the curve at its (lower) merge speed already
             raise InputError(source, where, "gives a merge speed at or below the speed leaving the controlling curve")
         at_speed, from_stop = _critical_gaps(data.gap_acceptance, ref, vehicle, source)
         vehicles.append(SiteVehicle(vehicle, share, merge, differential, at_speed, from_stop))
@@ -544,6 +582,7 @@ def site_from_input(data: SiteInput, source: str) -> Site:
         flag_speed_differential=flag,
         taper_credit=data.criteria.taper_credit,
         acceleration_from=data.criteria.acceleration_from,
+        verdict_basis=data.criteria.verdict_basis,
         gaps=gaps,
         merge=_merge_settings(data, operating, controlling, adjacent, source),
         policy_file=_policy_path(data.policy, base_dir),

@@ -80,6 +80,9 @@ def site_json(assessment: SiteAssessment) -> dict[str, Any]:
         "site": site.name,
         "source": site.source,
         "verdict": assessment.verdict,
+        "verdict_basis": assessment.basis,
+        "policy_basis": {"verdict": assessment.policy_verdict, "reason": assessment.policy_reason},
+        "performance_basis": {"verdict": assessment.performance_verdict},
         "governing_vehicle": assessment.governing.vehicle.id,
         "summary": assessment.summary,
         "mainline": {

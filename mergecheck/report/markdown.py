@@ -8,7 +8,7 @@ from ..cautions import CAUTIONS
 from ..exception import DesignException
 from ..units import UnitSystem, number, show, unit_symbol
 from .table_rows import batch_row
-from .wording import clearing, merge_behaviour, mitigation_change
+from .wording import clearing, merge_behaviour, mitigation_change, verdict_bases
 
 
 def _cell(text: object) -> str:
@@ -23,6 +23,8 @@ def site_markdown(assessment: SiteAssessment, system: UnitSystem, exception: Des
         f"# Acceleration-lane check: {_cell(site.name)}",
         "",
         f"**Verdict: {assessment.verdict.upper()}** — governing vehicle: `{assessment.governing.vehicle.id}`",
+        "",
+        *[f"- {line}" for line in verdict_bases(assessment, system)],
         "",
         summary_sentence(assessment, system),
         "",
@@ -209,7 +211,7 @@ def _exception_lines(assessment: SiteAssessment, exception: DesignException, sys
             result, need = "-", "-"
         else:
             g = m.assessment.governing
-            result = f"**{m.assessment.verdict}**"
+            result = f"**{m.assessment.performance_verdict}**"
             need = f"`{g.vehicle.id}`: " + (
                 "no length suffices" if g.length_needed is None else show(g.length_needed, "length", system)
             )

@@ -19,7 +19,7 @@ from ..shockwave import QueueGrowth
 from ..sweep import Sweep
 from ..units import UnitSystem, convert, number, show, unit_symbol
 from .table_rows import batch_row
-from .wording import clearing, merge_behaviour
+from .wording import clearing, merge_behaviour, verdict_bases
 
 
 def _table_interval(length: float, system: UnitSystem) -> float:
@@ -226,8 +226,12 @@ def site_view(assessment: SiteAssessment, system: UnitSystem) -> RenderableType:
             f"{m.mean_stopped_wait:.0f}",
         )
 
+    on, policy_line, performance_line = verdict_bases(assessment, system)
     parts: list[RenderableType] = [
         verdict,
+        Text(on),
+        Text(policy_line),
+        Text(performance_line),
         Text(summary_sentence(assessment, system)),
         Text(""),
         layout,

@@ -2,10 +2,43 @@
 
 from __future__ import annotations
 
+from ..assessment import SiteAssessment
 from ..exception import Mitigation
 from ..merge_operations import MergeOperations
 from ..site import Site
 from ..units import UnitSystem, show
+
+
+def verdict_bases(assessment: SiteAssessment, system: UnitSystem) -> tuple[str, str, str]:
+    """Which basis the verdict is on, and the one line of each basis."""
+    a, site = assessment, assessment.site
+    on = (
+        "on the policy basis (criteria.verdict_basis: policy)"
+        if a.basis == "policy"
+        else "on the performance basis"
+        + (
+            " (criteria.verdict_basis: performance)"
+            if site.verdict_basis == "performance"
+            else " (no policy value applies)"
+        )
+    )
+    p = a.policy
+    if a.policy_verdict == "none" or p is None or p.minimum_length is None:
+        policy = f"Policy basis: no value. {a.policy_reason[0].upper()}{a.policy_reason[1:]}."
+    else:
+        policy = (
+            f"Policy basis: {a.policy_verdict.upper()}. Lane {show(site.lane_length, 'length', system)} (convergence point"
+            f" to the start of the taper, as the table measures it) against the table's"
+            f" {show(p.minimum_length, 'length', system)} ({p.note})."
+        )
+    short = [v for v in a.vehicles if v.verdict != "meets"]
+    heavy = [v for v in short if v.vehicle.category != "passenger-car"]
+    performance = f"Performance basis: {a.performance_verdict.upper()}."
+    if short:
+        performance += " Short: " + ", ".join(f"{v.vehicle.id} ({v.verdict})" for v in short) + "."
+    if heavy:
+        performance += " Heavy vehicles are judged at their own merge speed (criteria.heavy_vehicles); their shortfall is a finding to weigh against the agency's truck criteria."
+    return f"Verdict {on}.", policy, performance
 
 
 def merge_behaviour(site: Site) -> str:
