@@ -67,3 +67,17 @@ def test_every_report_names_both_bases(cli: Any, repo: Any, tmp_path: Any) -> No
     doc = cli("check", repo / "examples" / "larkspur-road.yaml", "--json").json()
     assert doc["verdict_basis"] == "policy" and doc["policy_basis"]["verdict"] == "short"
     assert doc["performance_basis"]["verdict"] == "short"
+
+
+def test_a_truck_slowing_on_the_ramp_upgrade_is_reported(make_site: Any) -> None:
+    """A design truck leaving a 70 km/h curve onto a 5 % upgrade cannot hold its speed (its crawl speed there is
+    about 40-48 km/h; Green Book 2011 truck curves level off at 21-23 mph on 6 % and 35-38 mph on 3 %, from
+    memory): the report says how much speed it loses before the end of the lane."""
+    from mergecheck.report.wording import slowing_notes
+
+    result = assess(make_site(ramp__controlling_speed="70 km/h", ramp__vehicles={"passenger-car": 0.8, "semitrailer-design": 0.2},
+                              geometry__profile=[{"from": "0 m", "grade": "5 %"}]))  # fmt: skip
+    notes = slowing_notes(result, "si")
+    assert len(notes) == 1 and notes[0].startswith("semitrailer-design slows on the grade from")
+    truck = next(v for v in result.vehicles if v.vehicle.id == "semitrailer-design")
+    assert truck.crawl_speed is not None and 40 / 3.6 < truck.crawl_speed < 48 / 3.6

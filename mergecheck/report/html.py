@@ -14,7 +14,7 @@ from ..assessment import SiteAssessment, summary_sentence
 from ..exception import DesignException
 from ..units import UnitSystem, show
 from . import plots
-from .wording import clearing, merge_behaviour, mitigation_change, verdict_bases
+from .wording import clearing, merge_behaviour, mitigation_change, slowing_notes, verdict_bases
 
 _ENVIRONMENT = jinja2.Environment(
     loader=jinja2.PackageLoader("mergecheck.report", "templates"),
@@ -47,7 +47,7 @@ def site_html(assessment: SiteAssessment, system: UnitSystem, exception: DesignE
         fmt=fmt,
         change_text=lambda m: mitigation_change(m, system),
         behaviour=merge_behaviour(assessment.site),
-        bases=verdict_bases(assessment, system),
+        bases=[*verdict_bases(assessment, system), *slowing_notes(assessment, system)],
         clears=clearing,
         system=system,
         version=__version__,

@@ -8,7 +8,7 @@ from ..cautions import CAUTIONS
 from ..exception import DesignException
 from ..units import UnitSystem, number, show, unit_symbol
 from .table_rows import batch_row
-from .wording import clearing, merge_behaviour, mitigation_change, verdict_bases
+from .wording import clearing, merge_behaviour, mitigation_change, slowing_notes, verdict_bases
 
 
 def _cell(text: object) -> str:
@@ -25,6 +25,7 @@ def site_markdown(assessment: SiteAssessment, system: UnitSystem, exception: Des
         f"**Verdict: {assessment.verdict.upper()}** — governing vehicle: `{assessment.governing.vehicle.id}`",
         "",
         *[f"- {line}" for line in verdict_bases(assessment, system)],
+        *[f"- {line}" for line in slowing_notes(assessment, system)],
         "",
         summary_sentence(assessment, system),
         "",

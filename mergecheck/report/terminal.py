@@ -19,7 +19,7 @@ from ..shockwave import QueueGrowth
 from ..sweep import Sweep
 from ..units import UnitSystem, convert, number, show, unit_symbol
 from .table_rows import batch_row
-from .wording import clearing, merge_behaviour, verdict_bases
+from .wording import clearing, merge_behaviour, slowing_notes, verdict_bases
 
 
 def _table_interval(length: float, system: UnitSystem) -> float:
@@ -232,6 +232,7 @@ def site_view(assessment: SiteAssessment, system: UnitSystem) -> RenderableType:
         Text(on),
         Text(policy_line),
         Text(performance_line),
+        *(Text(line, style="yellow") for line in slowing_notes(assessment, system)),
         Text(summary_sentence(assessment, system)),
         Text(""),
         layout,

@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import numpy as np
+
 from ..assessment import SiteAssessment
 from ..exception import Mitigation
 from ..merge_operations import MergeOperations
@@ -39,6 +41,31 @@ def verdict_bases(assessment: SiteAssessment, system: UnitSystem) -> tuple[str, 
     if heavy:
         performance += " Heavy vehicles are judged at their own merge speed (criteria.heavy_vehicles); their shortfall is a finding to weigh against the agency's truck criteria."
     return f"Verdict {on}.", policy, performance
+
+
+def slowing_notes(assessment: SiteAssessment, system: UnitSystem) -> list[str]:
+    """One line per design vehicle that loses speed on the ramp's upgrade before the end of the lane."""
+    notes = []
+    site = assessment.site
+    for v in assessment.vehicles:
+        t = v.trajectory
+        if t is None:
+            continue
+        stations = np.linspace(t.start, min(site.taper_start, t.end), 200)
+        speeds = t.speed_at(stations)
+        low = int(np.argmin(speeds))
+        if speeds[low] < v.initial_speed - 1.0 / 3.6:
+            crawl = (
+                ""
+                if v.crawl_speed is None
+                else f"; its crawl speed on the final grade is {show(v.crawl_speed, 'speed', system)}"
+            )
+            notes.append(
+                f"{v.vehicle.id} slows on the grade from {show(v.initial_speed, 'speed', system)} to"
+                f" {show(float(speeds[low]), 'speed', system)} at station {show(float(stations[low]), 'length', system)}"
+                f" (a loss of {show(v.initial_speed - float(speeds[low]), 'speed', system)}){crawl}."
+            )
+    return notes
 
 
 def merge_behaviour(site: Site) -> str:
