@@ -19,6 +19,12 @@ short when it needs more; and it cannot reach merge speed when its crawl
 speed on the final grade is lower. The governing vehicle is the one needing
 the longest lane (a vehicle that cannot reach merge speed governs over any
 that can; among those, the one with the lowest speed at the end of the lane).
+
+That is the performance basis. The policy basis compares the lane provided,
+measured as the policy table measures it, with the table's length. The site's
+verdict is on the basis the site chooses (criteria.verdict_basis, the policy
+basis by default), and on the performance basis wherever the table gives no
+value; both are always reported.
 """
 
 from __future__ import annotations
