@@ -15,6 +15,7 @@ from typing import Any, NoReturn
 
 from rich.console import Console, RenderableType
 from rich.progress import MofNCompleteColumn, Progress
+from rich.text import Text
 
 from . import __version__
 from .assessment import assess
@@ -167,13 +168,14 @@ def build_parser() -> argparse.ArgumentParser:
 
 def main(argv: Sequence[str] | None = None) -> int:
     args = build_parser().parse_args(argv)
-    stdout = Console(width=100 if not sys.stdout.isatty() else None, highlight=False)
-    stderr = Console(stderr=True, highlight=False)
+    # user text (site names, paths, values in messages) is never read as console markup
+    stdout = Console(width=100 if not sys.stdout.isatty() else None, highlight=False, markup=False)
+    stderr = Console(stderr=True, highlight=False, markup=False)
     try:
         handler: Handler = args.run
         return handler(args, stdout, stderr)
     except InputError as error:
-        stderr.print(f"[bold red]mergecheck: error:[/] {error}", markup=True, soft_wrap=True)
+        stderr.print(Text.assemble(("mergecheck: error:", "bold red"), " ", str(error)), soft_wrap=True)
         return EXIT_INPUT
 
 

@@ -102,3 +102,20 @@ def test_not_a_mapping_and_bad_yaml(cli: Any, tmp_path: Path) -> None:
 def test_missing_site_file(cli: Any, tmp_path: Path) -> None:
     run = cli("check", tmp_path / "nowhere.yaml")
     assert run.code == 2 and "cannot read" in run.stderr
+
+
+def test_square_brackets_in_user_text_are_text_not_markup(cli: Any, repo: Path, tmp_path: Path) -> None:
+    """A site name, a value and a vehicle id with square brackets (console markup syntax) print as written and
+    never raise: a name is shown literally, bad values end with exit 2 and a message naming the field."""
+    text = (repo / "examples" / "willowmere-level.yaml").read_text(encoding="utf-8")
+    named = tmp_path / "named.yaml"
+    named.write_text(text.replace("name: Willowmere", "name: Larkspur [/] Road [link=http://x]click[/link] Willowmere"))
+    run = cli("check", named)
+    assert run.code == 0 and "Traceback" not in run.stderr
+    assert "Larkspur [/] Road [link=http://x]click[/link]" in run.stdout
+    bad = tmp_path / "bad.yaml"
+    bad.write_text(text.replace("lane_length: 300 m", 'lane_length: "[/] m"'))
+    run = cli("check", bad)
+    assert run.code == 2 and "geometry.lane_length" in run.stderr and "[/] m" in run.stderr
+    run = cli("accel", "--vehicle", "[/]", "--from", "0 km/h", "--to", "50 km/h", "--grade", "0 %")
+    assert run.code == 2 and "Traceback" not in run.stderr and "[/]" in run.stderr
