@@ -101,13 +101,20 @@ def parse_yaml(text: str, source: str) -> Any:
         raise InputError(source, "", f"not valid YAML: {error}") from None
 
 
+def read_text(path: str | Path, what: str = "the file") -> str:
+    """A text file's content; a file that cannot be read or is not UTF-8 raises :class:`InputError`."""
+    try:
+        return Path(path).read_text(encoding="utf-8")
+    except OSError as error:
+        raise InputError(str(path), "", f"cannot read {what}: {error.strerror}") from None
+    except UnicodeDecodeError as error:
+        byte = error.object[error.start : error.start + 1].hex()
+        raise InputError(str(path), "", f"{what} is not UTF-8 text (byte 0x{byte} at position {error.start})") from None
+
+
 def read_yaml(path: str) -> Any:
     """Load a YAML file safely; unreadable or malformed files raise :class:`InputError`."""
-    try:
-        text = Path(path).read_text(encoding="utf-8")
-    except OSError as error:
-        raise InputError(path, "", f"cannot read the file: {error.strerror}") from None
-    return parse_yaml(text, path)
+    return parse_yaml(read_text(path), path)
 
 
 def pydantic_error(error: ValidationError, source: str) -> InputError:

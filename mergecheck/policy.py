@@ -21,13 +21,11 @@ import functools
 import importlib.resources
 import itertools
 from dataclasses import dataclass
-from pathlib import Path
 
 import numpy as np
 from pydantic import BaseModel, ConfigDict, Field, model_validator
 
-from .errors import InputError
-from .inputs import parse_yaml, validated
+from .inputs import parse_yaml, read_text, validated
 from .units import parse_quantity
 
 BUNDLED_POLICY = "policy-aashto-2011-us.yaml"
@@ -161,10 +159,7 @@ def _load_policy(path: str | None) -> PolicyTable:
         text = (importlib.resources.files("mergecheck.data") / BUNDLED_POLICY).read_text(encoding="utf-8")
         origin = f"bundled: {BUNDLED_POLICY}"
     else:
-        try:
-            text = Path(path).read_text(encoding="utf-8")
-        except OSError as error:
-            raise InputError(path, "", f"cannot read the policy table: {error.strerror}") from None
+        text = read_text(path, "the policy table")
         origin = path
     source = path or BUNDLED_POLICY
     data = validated(parse_yaml(text, source), _PolicyFile, source, "a policy table")

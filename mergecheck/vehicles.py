@@ -41,7 +41,7 @@ from pydantic import BaseModel, ConfigDict, Field
 from .acceleration import AccelerationModel, LinearDecreasing, PowerLimited, Tabulated, model_entry
 from .dynamics import PowerLimitedVehicle
 from .errors import InputError
-from .inputs import parse_yaml, validated
+from .inputs import parse_yaml, read_text, validated
 from .units import parse_quantity, si_unit
 
 Category = Literal["passenger-car", "truck", "bus", "recreational"]
@@ -183,11 +183,7 @@ def load_vehicle(
     looks_like_path = ref.endswith((".yaml", ".yml")) or "/" in ref or "\\" in ref
     if looks_like_path:
         path = Path(ref) if relative_to is None or Path(ref).is_absolute() else relative_to / ref
-        try:
-            text = path.read_text(encoding="utf-8")
-        except OSError as error:
-            raise InputError(str(path), "", f"cannot read the vehicle profile: {error.strerror}") from None
-        return parse_vehicle(text, str(path))
+        return parse_vehicle(read_text(path, "the vehicle profile"), str(path))
     if ref not in bundled_ids():
         raise InputError(
             source, field or ref, f"unknown vehicle id; known ids: {', '.join(bundled_ids())}, or a profile file path"

@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import copy
+import json
 from pathlib import Path
 from typing import Any
 
@@ -119,3 +120,33 @@ def test_square_brackets_in_user_text_are_text_not_markup(cli: Any, repo: Path, 
     assert run.code == 2 and "geometry.lane_length" in run.stderr and "[/] m" in run.stderr
     run = cli("accel", "--vehicle", "[/]", "--from", "0 km/h", "--to", "50 km/h", "--grade", "0 %")
     assert run.code == 2 and "Traceback" not in run.stderr and "[/]" in run.stderr
+
+
+def test_a_byte_that_is_not_utf8_is_a_clear_error_everywhere(cli: Any, repo: Path, tmp_path: Path) -> None:
+    """One byte that is not UTF-8 in a site, vehicle or policy file: exit 2 with the file and the byte named;
+    in a batch folder only that site is reported unreadable, the others are checked."""
+    good = (repo / "examples" / "willowmere-level.yaml").read_bytes()
+    bad = good.replace(b"Willowmere Avenue", b"Willowm\xe9re Avenue")
+    site = tmp_path / "latin1.yaml"
+    site.write_bytes(bad)
+    run = cli("check", site)
+    assert run.code == 2 and "not UTF-8 text" in run.stderr and "0xe9" in run.stderr and "Traceback" not in run.stderr
+    vehicle = tmp_path / "truck.yaml"
+    vehicle.write_bytes((repo / "vehicle_profiles" / "bus.yaml").read_bytes() + b"\n# caf\xe9\n")
+    run = cli("accel", "--vehicle", vehicle, "--from", "0 km/h", "--to", "50 km/h", "--grade", "0 %")
+    assert run.code == 2 and "the vehicle profile is not UTF-8 text" in run.stderr
+    policy = tmp_path / "table.yaml"
+    policy.write_bytes((repo / "examples" / "agency-policy-table.yaml").read_bytes() + b"\n# \xff\n")
+    with_policy = tmp_path / "with-policy.yaml"
+    with_policy.write_bytes(good + f"\npolicy: {policy}\n".encode())
+    run = cli("check", with_policy)
+    assert run.code == 2 and "the policy table is not UTF-8 text" in run.stderr
+    folder = tmp_path / "sites"
+    folder.mkdir()
+    (folder / "a.yaml").write_bytes(good)
+    (folder / "b.yaml").write_bytes(bad)
+    run = cli("batch", folder, "--json", tmp_path / "out.json")
+    assert run.code == 2 and "Traceback" not in run.stderr  # an unreadable site makes the batch exit 2
+    doc = json.loads((tmp_path / "out.json").read_text(encoding="utf-8"))
+    assert doc["summary"]["sites"] == 2 and doc["summary"]["unreadable"] == 1 and doc["summary"]["meets"] == 1
+    assert "not UTF-8 text" in json.dumps(doc["sites"])
