@@ -191,8 +191,8 @@ def _accel(args: argparse.Namespace, out: Console, err: Console) -> int:
     initial = parse_quantity(args.initial, "speed", source="command line", field="--from")
     target = parse_quantity(args.target, "speed", source="command line", field="--to")
     for name, value in (("--from", initial), ("--to", target)):
-        if value < 0:
-            raise InputError("command line", name, "a speed must not be negative")
+        if not 0 <= value <= 300 / 3.6:
+            raise InputError("command line", name, "a speed must lie between 0 and 300 km/h")
     elevation = 0.0
     if args.elevation is not None:
         elevation = parse_quantity(args.elevation, "length", source="command line", field="--elevation")

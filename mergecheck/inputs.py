@@ -99,6 +99,8 @@ def parse_yaml(text: str, source: str) -> Any:
         return yaml.load(text, Loader=_SAFE_LOADER)
     except yaml.YAMLError as error:
         raise InputError(source, "", f"not valid YAML: {error}") from None
+    except ValueError as error:  # e.g. an integer of thousands of digits, beyond Python's conversion limit
+        raise InputError(source, "", f"not a value a site can hold: {str(error)[:120]}") from None
 
 
 def read_text(path: str | Path, what: str = "the file") -> str:

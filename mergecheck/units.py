@@ -68,16 +68,20 @@ def parse_quantity(text: object, kind: str, *, source: str, field: str) -> float
         raise _bad(source, field, f"a unit is required: expected {example}, got the bare number {text!r}")
     if not isinstance(text, str):
         raise _bad(source, field, f"expected {example}, got {text!r}")
-    quick = _NUMBER_AND_UNIT.fullmatch(text)
-    if quick:  # the common 'number unit' form: pint reads the unit once, the number is a float
-        factor = _unit_factor(quick["unit"], kind)
-        value = float(quick["number"]) * factor if isinstance(factor, float) else math.nan
-        if math.isfinite(value):
-            return value
-    result = _si_value(text, kind)
-    if isinstance(result, str):
-        raise _bad(source, field, result)
-    return result
+    plain = _NUMBER_AND_UNIT.fullmatch(text)
+    if plain is None:  # no arithmetic, no second decimal point, no stray characters: a typo is never a value
+        if _BARE_NUMBER.fullmatch(text):
+            raise _bad(source, field, f"a unit is required: expected {example}, got {text!r}")
+        if _NOT_FINITE.match(text):
+            raise _bad(source, field, f"{text!r} is not a finite number")
+        raise _bad(source, field, f"cannot read {text!r} as a quantity: expected a plain number and a unit, {example}")
+    factor = _unit_factor(plain["unit"], kind)  # pint reads the unit once; the number is a plain float
+    if isinstance(factor, str):
+        raise _bad(source, field, factor.replace("'1 ", "'").replace(repr(f"1 {plain['unit']}"), repr(text)))
+    value = float(plain["number"]) * factor
+    if not math.isfinite(value):
+        raise _bad(source, field, f"{text!r} is not a finite number")
+    return value
 
 
 def _si_value(text: str, kind: str) -> float | str:
@@ -98,9 +102,15 @@ def _si_value(text: str, kind: str) -> float | str:
     return value
 
 
+_BARE_NUMBER = re.compile(r"\s*[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?\s*")
+_NOT_FINITE = re.compile(r"\s*[-+]?(?:nan|inf)", re.IGNORECASE)
+_UNIT_TOKEN = r"(?:[A-Za-z%°]+(?:\s*(?:\^|\*\*)\s*-?[1-3]|[²³])?)"
 _NUMBER_AND_UNIT = re.compile(
-    r"\s*(?P<number>[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*(?P<unit>[A-Za-z%][A-Za-z0-9%/*^. ]*?)\s*"
+    r"\s*(?P<number>[-+]?(?:\d{1,17}(?:\.\d{0,24})?|\.\d{1,24})(?:[eE][-+]?\d{1,3})?)\s*"
+    rf"(?P<unit>(?:1\s*/\s*)?{_UNIT_TOKEN}(?:\s*[/*·]?\s*{_UNIT_TOKEN})*)\s*"
 )
+"""A plain number (at most 17 digits before the point and 24 after, an exponent of at most 3 digits) and a unit
+made of names joined by '/', '*', '·' or a space, each with at most a small power (m/s^2, veh/km, 1/s)."""
 
 
 @functools.lru_cache(maxsize=1024)

@@ -10,6 +10,8 @@ from typing import Any
 import pytest
 import yaml
 
+from mergecheck.errors import InputError
+
 BASE: dict[str, Any] = yaml.safe_load(
     """
 name: Test site
@@ -150,3 +152,41 @@ def test_a_byte_that_is_not_utf8_is_a_clear_error_everywhere(cli: Any, repo: Pat
     doc = json.loads((tmp_path / "out.json").read_text(encoding="utf-8"))
     assert doc["summary"]["sites"] == 2 and doc["summary"]["unreadable"] == 1 and doc["summary"]["meets"] == 1
     assert "not UTF-8 text" in json.dumps(doc["sites"])
+
+
+@pytest.mark.parametrize(
+    "text",
+    ["300.0.5 m", "1.2.3 m", "100 m?", "[1] m", "10**400 m", "10**10**10 m", "2*150 m", "1" + "0" * 400 + " m"],
+)
+def test_a_quantity_is_a_plain_number_and_a_unit(text: str) -> None:
+    """Typos are never read as arithmetic or as another value (before, '300.0.5 m' read as 150 m and
+    '1.2.3 m' as 0.36 m, '10**10**10 m' ran for over a minute): each is refused at once, naming the field."""
+    import time
+
+    from mergecheck.units import parse_quantity
+
+    start = time.perf_counter()
+    with pytest.raises(InputError, match=r"geometry\.lane_length: (cannot read|.*not a finite)"):
+        parse_quantity(text, "length", source="site.yaml", field="geometry.lane_length")
+    assert time.perf_counter() - start < 1.0  # a bound, not a benchmark: the pint power evaluation took minutes
+
+
+def test_plain_quantities_still_read(cli: Any) -> None:
+    """The forms the documentation uses (common practice units; conversions by pint, a reference library)."""
+    from mergecheck.units import parse_quantity
+
+    cases = {("65 mph", "speed"): 65 * 0.44704, ("1.2 m/s^2", "acceleration"): 1.2, ("0.5 m/s²", "acceleration"): 0.5,
+             ("120 veh/km", "density"): 0.12, ("0.03 1/s", "frequency"): 0.03, ("-3 %", "grade"): -0.03,
+             ("150 lb/hp", "weight_to_power"): 150 * 0.45359237 / 745.69987158227022}  # fmt: skip
+    for (text, kind), expected in cases.items():
+        assert parse_quantity(text, kind, source="s", field="f") == pytest.approx(expected, rel=1e-9)
+    run = cli("accel", "--vehicle", "passenger-car", "--from", "1e300 km/h", "--to", "50 km/h", "--grade", "0 %")
+    assert run.code == 2 and "between 0 and 300 km/h" in run.stderr and "Traceback" not in run.stderr
+
+
+def test_an_integer_of_thousands_of_digits_is_an_input_error(tmp_path: Path, cli: Any, repo: Path) -> None:
+    text = (repo / "examples" / "willowmere-level.yaml").read_text(encoding="utf-8")
+    site = tmp_path / "huge.yaml"
+    site.write_text(text.replace("lanes: 2", "lanes: " + "9" * 5000))
+    run = cli("check", site)
+    assert run.code == 2 and "Traceback" not in run.stderr and "huge.yaml" in run.stderr
