@@ -38,7 +38,8 @@ from .trajectory import accelerate
 from .units import counts_passenger_cars, parse_quantity
 from .vehicles import load_bundled, load_vehicle
 
-EXIT_OK, EXIT_SHORT, EXIT_INPUT = 0, 1, 2
+EXIT_OK, EXIT_SHORT, EXIT_INPUT, EXIT_INTERNAL = 0, 1, 2, 3
+"""0 meets, 1 falls short, 2 bad input (nothing written), 3 an internal error (never a verdict)."""
 Handler = Callable[[argparse.Namespace, Console, Console], int]
 """A command: parsed arguments, standard output and error consoles -> exit code."""
 
@@ -177,6 +178,18 @@ def main(argv: Sequence[str] | None = None) -> int:
     except InputError as error:
         stderr.print(Text.assemble(("mergecheck: error:", "bold red"), " ", str(error)), soft_wrap=True)
         return EXIT_INPUT
+    except KeyboardInterrupt:
+        raise
+    except Exception as error:  # a defect, never a verdict: its own exit code and a request for a report
+        stderr.print(
+            Text.assemble(
+                ("mergecheck: internal error:", "bold red"),
+                f" {type(error).__name__}: {error}. This is a defect in mergecheck, not a finding about the site;"
+                " please report it with the input that caused it.",
+            ),
+            soft_wrap=True,
+        )
+        return EXIT_INTERNAL
 
 
 def _vehicles(args: argparse.Namespace, out: Console, err: Console) -> int:
@@ -255,8 +268,8 @@ def _gaps(args: argparse.Namespace, out: Console, err: Console) -> int:
         min_headway = parse_quantity(args.min_headway, "time", source="command line", field="--min-headway")
         if not 0 <= min_headway * flow < 1:
             raise InputError("command line", "--min-headway", "must be at least 0 s and below the mean headway 1/q")
-        if args.free_fraction is not None and not 0 < args.free_fraction <= 1:
-            raise InputError("command line", "--free-fraction", "must lie in (0, 1]")
+        if args.free_fraction is not None and not 0.01 <= args.free_fraction <= 1:
+            raise InputError("command line", "--free-fraction", "must lie between 0.01 and 1")
     model = headway_model(args.model, flow, min_headway=min_headway or 0.0, free_fraction=args.free_fraction)
     p = float(model.survival(gap))
     figures = GapFigures(
@@ -436,7 +449,12 @@ def write_whole(path: str, text: str) -> None:
     """Write a file whole or not at all (temporary file, then an atomic rename)."""
     target = Path(path)
     directory = target.parent if str(target.parent) else Path(".")
-    handle, temporary = tempfile.mkstemp(dir=directory, prefix=f".{target.name}.", suffix=".part")
+    if target.is_dir():
+        raise InputError("command line", path, "is a folder: give a file name for this output")
+    try:
+        handle, temporary = tempfile.mkstemp(dir=directory, prefix=f".{target.name}.", suffix=".part")
+    except OSError as error:
+        raise InputError("command line", path, f"cannot write this output: {error.strerror}") from None
     try:
         with os.fdopen(handle, "w", encoding="utf-8") as stream:
             stream.write(text)
@@ -444,6 +462,9 @@ def write_whole(path: str, text: str) -> None:
         os.umask(umask)
         os.chmod(temporary, 0o666 & ~umask)  # the permissions of a file written the ordinary way
         os.replace(temporary, target)
+    except OSError as error:
+        Path(temporary).unlink(missing_ok=True)
+        raise InputError("command line", path, f"cannot write this output: {error.strerror}") from None
     except BaseException:
         Path(temporary).unlink(missing_ok=True)
         raise

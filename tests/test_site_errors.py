@@ -190,3 +190,22 @@ def test_an_integer_of_thousands_of_digits_is_an_input_error(tmp_path: Path, cli
     site.write_text(text.replace("lanes: 2", "lanes: " + "9" * 5000))
     run = cli("check", site)
     assert run.code == 2 and "Traceback" not in run.stderr and "huge.yaml" in run.stderr
+
+
+def test_an_output_path_that_is_a_folder_is_an_input_error(cli: Any, repo: Path, tmp_path: Path) -> None:
+    run = cli("check", repo / "examples" / "willowmere-level.yaml", "--json", tmp_path)
+    assert run.code == 2 and "is a folder" in run.stderr and "Traceback" not in run.stderr
+
+
+def test_an_internal_error_has_its_own_exit_code(monkeypatch: Any, capsys: Any) -> None:
+    """A defect must never read as a verdict: exit 3 (not 1, 'falls short'), with a request for a report."""
+    from mergecheck import cli as command_line
+
+    def broken(*_: Any) -> Any:
+        raise ZeroDivisionError("float division by zero")
+
+    monkeypatch.setattr(command_line, "assess", broken)
+    code = command_line.main(["check", str(Path(__file__).parent.parent / "examples" / "willowmere-level.yaml")])
+    assert code == command_line.EXIT_INTERNAL == 3
+    err = capsys.readouterr().err
+    assert "internal error" in err and "please report it" in err
