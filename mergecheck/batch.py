@@ -225,7 +225,7 @@ def _assess_chunk(entries: list[SiteEntry]) -> list[BatchResult]:
             readable.append((i, site))
         except InputError as error:
             results[i] = BatchResult(label=entry.label, assessment=None, error=str(error))
-    assessments = assess_many([site for _, site in readable])
+    assessments = assess_many([site for _, site in readable]) if readable else []  # a chunk may be all unreadable
     for (i, _), assessment in zip(readable, assessments, strict=True):
         results[i] = BatchResult(label=entries[i].label, assessment=assessment.figures_only(), error=None)
     return [r for r in results if r is not None]

@@ -89,8 +89,29 @@ def build_profile(points: list[GradePoint], source: str, field: str) -> Vertical
     return VerticalProfile(initial_grade=grades[0], changes=changes)
 
 
-_SAFE_LOADER: Any = getattr(yaml, "CSafeLoader", yaml.SafeLoader)
-"""PyYAML's safe loader, on libyaml when the installed PyYAML was built with it (same rules, faster)."""
+_BASE_LOADER: Any = getattr(yaml, "CSafeLoader", yaml.SafeLoader)
+
+
+class _UniqueKeyLoader(_BASE_LOADER):  # type: ignore[misc]
+    """PyYAML's safe loader (on libyaml when built with it) that refuses a key given twice in one mapping."""
+
+    def construct_mapping(self, node: Any, deep: bool = False) -> Any:
+        seen: set[str] = set()
+        for key_node, _ in node.value:
+            if not isinstance(key_node, yaml.ScalarNode) or key_node.tag == "tag:yaml.org,2002:merge":
+                continue
+            if key_node.value in seen:
+                raise yaml.constructor.ConstructorError(
+                    None, None, f"the key {key_node.value!r} is given twice (the last would silently win)",
+                    key_node.start_mark,
+                )  # fmt: skip
+            seen.add(key_node.value)
+        return super().construct_mapping(node, deep=deep)
+
+
+_UniqueKeyLoader.add_constructor("tag:yaml.org,2002:map", _UniqueKeyLoader.construct_yaml_map)
+_SAFE_LOADER: Any = _UniqueKeyLoader
+"""The loader every input file goes through."""
 
 
 def parse_yaml(text: str, source: str) -> Any:

@@ -209,3 +209,20 @@ def test_an_internal_error_has_its_own_exit_code(monkeypatch: Any, capsys: Any) 
     assert code == command_line.EXIT_INTERNAL == 3
     err = capsys.readouterr().err
     assert "internal error" in err and "please report it" in err
+
+
+def test_a_key_given_twice_is_refused(cli: Any, repo: Path, tmp_path: Path) -> None:
+    """Before, the last of two lane_length entries won silently."""
+    text = (repo / "examples" / "willowmere-level.yaml").read_text(encoding="utf-8")
+    site = tmp_path / "twice.yaml"
+    site.write_text(text.replace("  lane_length: 300 m\n", "  lane_length: 300 m\n  lane_length: 150 m\n"))
+    run = cli("check", site)
+    assert run.code == 2 and "'lane_length' is given twice" in run.stderr and "twice.yaml" in run.stderr
+
+
+def test_a_batch_chunk_of_unreadable_sites_is_reported(tmp_path: Path, cli: Any) -> None:
+    """Before, a worker whose every site was unreadable raised 'need at least one array to concatenate'."""
+    csv_file = tmp_path / "sites.csv"
+    csv_file.write_text("name,design_speed\nOnly row,not a speed\n", encoding="utf-8")
+    run = cli("batch", csv_file, "--workers", "1")
+    assert run.code == 2 and "Traceback" not in run.stderr and "1 unreadable" in " ".join(run.stdout.split())
