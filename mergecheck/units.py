@@ -77,29 +77,34 @@ def parse_quantity(text: object, kind: str, *, source: str, field: str) -> float
         raise _bad(source, field, f"cannot read {text!r} as a quantity: expected a plain number and a unit, {example}")
     factor = _unit_factor(plain["unit"], kind)  # pint reads the unit once; the number is a plain float
     if isinstance(factor, str):
-        raise _bad(source, field, factor.replace("'1 ", "'").replace(repr(f"1 {plain['unit']}"), repr(text)))
+        raise _bad(source, field, _RULES[factor].format(text=repr(text), example=example))
     value = float(plain["number"]) * factor
     if not math.isfinite(value):
         raise _bad(source, field, f"{text!r} is not a finite number")
     return value
 
 
-def _si_value(text: str, kind: str) -> float | str:
-    """The SI value of a quantity written as text, or the rule it breaks."""
-    si_unit, example = _KINDS[kind]
+_RULES = {
+    "unreadable": "cannot read {text} as a quantity: expected {example}",
+    "no unit": "a unit is required: expected {example}, got {text}",
+    "wrong kind": "wrong kind of quantity {text}: expected {example}",
+    "not finite": "{text} is not a finite number",
+}
+
+
+def _si_factor(unit: str, kind: str) -> float | str:
+    """The SI value of one ``unit`` of this kind of quantity, or the key of the rule it breaks in ``_RULES``."""
     try:
-        quantity: Any = ureg.Quantity(text.strip())
+        quantity: Any = ureg.Quantity(f"1 {unit}")
     except Exception:  # pint's parser raises many kinds (tokenize, assertion, pint, value errors) on odd text
-        return f"cannot read {text!r} as a quantity: expected {example}"
+        return "unreadable"
     if not isinstance(quantity, pint.Quantity) or (quantity.dimensionless and quantity.units == ureg.dimensionless):
-        return f"a unit is required: expected {example}, got {text!r}"
+        return "no unit"
     try:
-        value = float(quantity.to(si_unit or "dimensionless").magnitude)
+        value = float(quantity.to(_KINDS[kind][0] or "dimensionless").magnitude)
     except pint.errors.DimensionalityError:
-        return f"wrong kind of quantity {text!r}: expected {example}"
-    if not math.isfinite(value):
-        return f"{text!r} is not a finite number"
-    return value
+        return "wrong kind"
+    return value if math.isfinite(value) else "not finite"
 
 
 _BARE_NUMBER = re.compile(r"\s*[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?\s*")
@@ -115,8 +120,8 @@ made of names joined by '/', '*', '·' or a space, each with at most a small pow
 
 @functools.lru_cache(maxsize=1024)
 def _unit_factor(unit: str, kind: str) -> float | str:
-    """SI value of one ``unit`` of this kind of quantity, or the rule it breaks (:func:`_si_value`)."""
-    return _si_value(f"1 {unit}", kind)
+    """:func:`_si_factor`, each unit read once."""
+    return _si_factor(unit, kind)
 
 
 def si_unit(kind: str) -> str:
