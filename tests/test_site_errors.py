@@ -226,3 +226,19 @@ def test_a_batch_chunk_of_unreadable_sites_is_reported(tmp_path: Path, cli: Any)
     csv_file.write_text("name,design_speed\nOnly row,not a speed\n", encoding="utf-8")
     run = cli("batch", csv_file, "--workers", "1")
     assert run.code == 2 and "Traceback" not in run.stderr and "1 unreadable" in " ".join(run.stdout.split())
+
+
+@pytest.mark.parametrize(
+    ("vary", "rule"),
+    [
+        ("weight_to_power=0 kg/kW:100 kg/kW:50 kg/kW", "kg/kW, as a vehicle profile"),
+        ("adjacent_lane_flow=-1000 veh/h:1000 veh/h:1000 veh/h", "3000 veh/h, as mainline.adjacent_lane_flow"),
+        ("adjacent_lane_flow=1000 veh/h:4000 veh/h:1000 veh/h", "3000 veh/h, as mainline.adjacent_lane_flow"),
+        ("lane_length=1 m:1e300 m:1e299 m", "5000 m, as geometry.lane_length"),
+        ("grade=-1 %:50 %:10 %", "as a profile grade"),
+    ],
+)
+def test_sweep_values_are_checked_as_the_site_file_checks_them(cli: Any, repo: Path, vary: str, rule: str) -> None:
+    """Before, a sweep divided by zero, raised from the headway model, exhausted memory or accepted -1000 veh/h."""
+    run = cli("sweep", repo / "examples" / "willowmere-level.yaml", "--vary", vary)
+    assert run.code == 2 and rule in " ".join(run.stderr.split()) and "Traceback" not in run.stderr
