@@ -55,7 +55,7 @@ import importlib.resources
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import Literal
+from typing import Literal, NamedTuple
 
 import numpy as np
 import yaml
@@ -641,6 +641,20 @@ def merge_reliabilities(
     return results
 
 
+class _ActiveRow(NamedTuple):
+    """One vehicle's inputs to the active model: its stations, where a decision there is complete, and the
+    stream time and acceleration rule of its site curve and its unhurried curve."""
+
+    row: int
+    station: FloatArray
+    crossing: FloatArray
+    forcing_from: float
+    tau_site: FloatArray
+    site_rule: tuple[FloatArray, ...]
+    tau_free: FloatArray
+    free_rule: tuple[FloatArray, ...]
+
+
 @dataclass(frozen=True, slots=True)
 class _SiteCurve:
     rules: Rules
@@ -664,7 +678,7 @@ def _active_curves(
     and the site curve."""
     if not rows:
         return {}, {}
-    built = []
+    built: list[_ActiveRow] = []
     for r in rows:
         s = settings[r]
         b, flow = s.behaviour, _stream(s).flow
@@ -685,14 +699,14 @@ def _active_curves(
         unhurried_from = float(x[-1]) if np.isnan(x_a[r]) else float(x_a[r])  # never eligible: nothing solved
         at_site = rule(eligible=forcing_from, until=s.taper_end, pressured=True)
         unhurried = rule(eligible=unhurried_from, until=float(x[-1]), pressured=False)
-        built.append((r, x, crossing, forcing_from, *at_site, *unhurried))
+        built.append(_ActiveRow(r, x, crossing, forcing_from, *at_site, *unhurried))
     streams = [_stream(settings[r]) for r in rows]
     nodes = [settings[r].critical_gap.nodes(ACTIVE_NODES) for r in rows]
     size = max(n.size for n, _ in nodes)
     gaps = np.array([np.pad(n, (0, size - n.size), constant_values=n[-1]) for n, _ in nodes])
     weights = np.array([np.pad(w, (0, size - w.size)) for _, w in nodes])
-    site_rules = Rules.stack([b[5] for b in built])
-    free_rules = Rules.stack([b[7] for b in built])
+    site_rules = Rules.stack([b.site_rule for b in built])
+    free_rules = Rules.stack([b.free_rule for b in built])
     target = np.array([1.0 - settings[r].reliability for r in rows])
     site_not = solve(streams, gaps, weights, site_rules)
     free_not = solve(streams, gaps, weights, free_rules, stop_below=target)
