@@ -101,6 +101,8 @@ def test_near_capacity_many_merges_are_forced_and_few_stop(make_site: Any) -> No
     flow, many times those at 600 veh/h, and most of the unmerged force in rather than stop."""
     low = assess(make_site(mainline__adjacent_lane_flow="600 veh/h")).vehicles[0].merge
     high = assess(make_site(mainline__adjacent_lane_flow="2200 veh/h")).vehicles[0].merge
+    # thresholds (8 % of the ramp flow, five times the free-flow figure): common practice, forced merges being
+    # routine near capacity and rare at free flow
     assert high.forced_merges_per_h > 0.08 * 500 and high.forced_merges_per_h > 5 * low.forced_merges_per_h
     assert high.stops_per_h < 0.5 * (500 * (1 - high.by_lane_end))
 
