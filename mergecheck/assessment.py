@@ -364,7 +364,7 @@ def assess_many(sites: list[Site], *, monte_carlo: int = 0, seed: int = 20261202
 
 def _policy_tables(sites: list[Site]) -> list[PolicyTable | None]:
     """Each site's policy table; each file read once."""
-    loaded: dict[str | None, PolicyTable] = {}
+    loaded: dict[str, PolicyTable] = {}
     tables: list[PolicyTable | None] = []
     for site in sites:
         if site.policy_file == "none":
@@ -556,7 +556,7 @@ def _assumptions(
             ),
         ]
     if policy is not None:
-        items.append(Assumption("Policy table", policy.table.title, policy.table.source))
+        items.append(Assumption("Policy table", policy.table.title, f"{site.policy_choice}; {policy.table.source}"))
         items.append(Assumption("Policy interpolation", "see rule", policy.table.interpolation))
     return tuple(items)
 

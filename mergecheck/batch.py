@@ -213,7 +213,7 @@ def assess_chunk(entries: list[SiteEntry]) -> list[BatchResult]:
 def _assess_chunk(entries: list[SiteEntry]) -> list[BatchResult]:
     results: list[BatchResult | None] = [None] * len(entries)
     readable: list[tuple[int, Site]] = []
-    policies: dict[str | None, str | None] = {}  # policy file -> why it cannot be read (None: readable)
+    policies: dict[str, str | None] = {}  # policy file -> why it cannot be read (None: readable)
     for i, entry in enumerate(entries):
         try:
             site = site_from_input(entry.read(), entry.label)
@@ -221,7 +221,7 @@ def _assess_chunk(entries: list[SiteEntry]) -> list[BatchResult]:
                 if site.policy_file not in policies:
                     policies[site.policy_file] = _policy_problem(site.policy_file)
                 if policies[site.policy_file] is not None:
-                    raise InputError(entry.label, "criteria.policy_table", str(policies[site.policy_file]))
+                    raise InputError(entry.label, "policy", str(policies[site.policy_file]))
             readable.append((i, site))
         except InputError as error:
             results[i] = BatchResult(label=entry.label, assessment=None, error=str(error))
@@ -246,7 +246,7 @@ def _bulk() -> Iterator[None]:
             gc.enable()
 
 
-def _policy_problem(path: str | None) -> str | None:
+def _policy_problem(path: str) -> str | None:
     try:
         load_policy(path)
     except InputError as error:
@@ -276,17 +276,20 @@ def assess_all(
 
 
 def severity(result: BatchResult) -> tuple[int, float]:
-    """Sort key, worst first: unreadable, cannot reach, short by deficit, then meets by least margin."""
+    """Sort key, worst first: unreadable; sites whose verdict is short (a vehicle that cannot reach, then by
+    deficit on the verdict's basis); then sites that meet, by least margin on the verdict's basis."""
     a = result.assessment
     if a is None:
         return (0, 0.0)
     g = a.governing
-    if g.verdict == "cannot-reach" or (g.verdict == "short" and g.deficit is None):
+    if a.basis == "performance" and a.verdict != "meets" and (g.verdict == "cannot-reach" or g.deficit is None):
         return (1, -g.speed_differential_at_lane_end)
-    if g.verdict == "short":
-        return (2, -(g.deficit or 0.0))
-    margin = a.site.available_length - (g.length_needed or 0.0)
-    return (3, margin)
+    policy = a.policy.minimum_length if a.policy is not None else None
+    if a.basis == "policy" and policy is not None:
+        margin = a.site.lane_length - policy  # the lane as the table measures it, as the policy basis compares
+    else:
+        margin = a.site.available_length - (g.length_needed or 0.0)
+    return (2, margin) if a.verdict != "meets" else (3, margin)
 
 
 def ranked(results: list[BatchResult]) -> list[BatchResult]:

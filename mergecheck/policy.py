@@ -1,6 +1,7 @@
 """Policy minimum acceleration lengths, as data an agency can supply.
 
-A policy table (YAML; the bundled one is ``mergecheck/data/policy-aashto-2011-us.yaml``)
+A policy table (YAML; two are bundled, ``mergecheck/data/policy-aashto-2011-us.yaml`` and
+``mergecheck/data/policy-aashto-2011-metric.yaml``, named ``us`` and ``metric`` in a site file)
 gives minimum acceleration lengths by highway design speed (rows) and ramp
 controlling-curve design speed (columns, with a "stop" column), the merge
 speed Va and initial speed Va' each assumes, and grade factors (ratio of the
@@ -11,8 +12,9 @@ and ramp controlling speed between the four surrounding cells; the "stop"
 column is interpolated in highway design speed only; no extrapolation beyond
 the table, and no value where any of the cells used is blank. Grades within
 +/- 3 % take the flat-grade value; grade factors (upgrade and downgrade
-blocks) are interpolated the same way within their block; a grade between or
-beyond the blocks has no factor, and no policy value is given for it.
+blocks) are interpolated the same way within their block and linearly in grade
+between the near ends of two blocks; a grade beyond the steepest block has no
+factor (not extrapolated), and no policy value is given for it.
 """
 
 from __future__ import annotations
@@ -28,7 +30,8 @@ from pydantic import BaseModel, ConfigDict, Field, model_validator
 from .inputs import parse_yaml, read_text, validated
 from .units import parse_quantity
 
-BUNDLED_POLICY = "policy-aashto-2011-us.yaml"
+BUNDLED_POLICIES = {"us": "policy-aashto-2011-us.yaml", "metric": "policy-aashto-2011-metric.yaml"}
+"""The bundled tables by the name a site file gives them (``policy: us`` or ``policy: metric``)."""
 FLAT_GRADE_LIMIT = 0.03
 """Tables apply to grades below this without adjustment ("flat grades of less than 3 percent"). [fraction]"""
 
@@ -145,23 +148,23 @@ class PolicyValue:
 
 
 @functools.cache
-def _bundled_policy() -> PolicyTable:
-    return _load_policy(None)
+def _bundled_policy(name: str) -> PolicyTable:
+    return _load_policy(name)
 
 
-def load_policy(path: str | None) -> PolicyTable:
-    """Load a policy table by path, or the bundled one when path is None (read once)."""
-    return _bundled_policy() if path is None else _load_policy(path)
+def load_policy(path: str) -> PolicyTable:
+    """Load a policy table: a bundled one by name (``us``, ``metric``; read once), else a file by path."""
+    return _bundled_policy(path) if path in BUNDLED_POLICIES else _load_policy(path)
 
 
-def _load_policy(path: str | None) -> PolicyTable:
-    if path is None:
-        text = (importlib.resources.files("mergecheck.data") / BUNDLED_POLICY).read_text(encoding="utf-8")
-        origin = f"bundled: {BUNDLED_POLICY}"
+def _load_policy(path: str) -> PolicyTable:
+    if path in BUNDLED_POLICIES:
+        source = BUNDLED_POLICIES[path]
+        text = (importlib.resources.files("mergecheck.data") / source).read_text(encoding="utf-8")
+        origin = f"bundled: {source}"
     else:
         text = read_text(path, "the policy table")
-        origin = path
-    source = path or BUNDLED_POLICY
+        source = origin = path
     data = validated(parse_yaml(text, source), _PolicyFile, source, "a policy table")
     speed = parse_quantity(f"1 {data.units.speed}", "speed", source=source, field="units.speed")
     length = parse_quantity(f"1 {data.units.length}", "length", source=source, field="units.length")

@@ -23,9 +23,9 @@ from .errors import InputError
 from .gap_acceptance import CriticalGap, default_critical_gaps
 from .inputs import GradePoint, build_profile, read_yaml, validated
 from .merge_behaviour import MergeBehaviour
-from .policy import load_policy, running_speed_for
+from .policy import BUNDLED_POLICIES, load_policy, running_speed_for
 from .profile import VerticalProfile
-from .units import parse_quantity
+from .units import parse_quantity, written_in_us_customary
 from .vehicles import DesignVehicle, load_vehicle
 
 SHARE_TOLERANCE = 1e-3
@@ -313,7 +313,10 @@ class SiteInput(_Strict):
     merge_area: MergeAreaInput = Field(default_factory=MergeAreaInput)
     policy: str | None = Field(
         default=None,
-        description="Policy table file (path relative to this file), 'none', or omitted for the bundled table.",
+        description=(
+            "Policy table: 'us' or 'metric' (the bundled tables), a table file (path relative to this file), or"
+            " 'none'. Omitted: the bundled table in the units the design speed is written in (mph: us; km/h: metric)."
+        ),
     )
 
 
@@ -414,8 +417,10 @@ class Site:
     """Which basis decides the site's verdict (criteria.verdict_basis)."""
     gaps: GapSettings
     merge: MergeAreaSettings
-    policy_file: str | None
-    """Path of the policy table, 'none', or None for the bundled one."""
+    policy_file: str
+    """The policy table: 'us' or 'metric' (bundled), 'none', or the path of a table file."""
+    policy_choice: str = "site file"
+    """Why this table: named in the site file, or matched to the units of the design speed."""
 
     @property
     def taper_start(self) -> float:
@@ -447,8 +452,9 @@ def site_from_input(data: SiteInput, source: str) -> Site:
 
     design = q(data.mainline.design_speed, "speed", "mainline.design_speed")
     base_dir = Path(source).parent
+    policy_file, policy_choice = _policy_choice(data.policy, data.mainline.design_speed, base_dir)
     if data.mainline.operating_speed is None:
-        operating, operating_basis = _default_operating_speed(design, _policy_path(data.policy, base_dir))
+        operating, operating_basis = _default_operating_speed(design, policy_file)
     else:
         operating = q(data.mainline.operating_speed, "speed", "mainline.operating_speed")
         operating_basis = "site file"
@@ -523,9 +529,6 @@ def site_from_input(data: SiteInput, source: str) -> Site:
         if not 0 <= differential < operating:
             raise InputError(source, where, "must be at least 0 and below the operating speed")
         merge = operating - differential
-        start = initial if initial is not None else (controlling or 0.0)
-        if merge <= start and not heavy:  # a heavy vehicle may leave the curve at its (lower) merge speed already
-            raise InputError(source, where, "gives a merge speed at or below the speed leaving the controlling curve")
         at_speed, from_stop = _critical_gaps(data.gap_acceptance, ref, vehicle, source)
         vehicles.append(SiteVehicle(vehicle, share, merge, differential, at_speed, from_stop))
     unknown = sorted(set(data.gap_acceptance.critical_gaps) - set(shares))
@@ -585,7 +588,8 @@ def site_from_input(data: SiteInput, source: str) -> Site:
         verdict_basis=data.criteria.verdict_basis,
         gaps=gaps,
         merge=_merge_settings(data, operating, controlling, adjacent, source),
-        policy_file=_policy_path(data.policy, base_dir),
+        policy_file=policy_file,
+        policy_choice=policy_choice,
     )
 
 
@@ -727,10 +731,10 @@ def _merge_settings(
     )
 
 
-def _default_operating_speed(design: float, policy_file: str | None) -> tuple[float, str]:
+def _default_operating_speed(design: float, policy_file: str) -> tuple[float, str]:
     """The operating speed at the merge when the site gives none: the policy table's average running speed for
     the design speed (the speed its merge speeds are set against), else the design speed."""
-    if policy_file is not None and policy_file.strip().lower() == "none":
+    if policy_file == "none":
         return design, "not given, and no policy table: taken equal to the design speed (the conservative case)"
     try:
         table = load_policy(policy_file)
@@ -748,8 +752,17 @@ def _default_operating_speed(design: float, policy_file: str | None) -> tuple[fl
     )
 
 
-def _policy_path(policy: str | None, base_dir: Path) -> str | None:
-    if policy is None or policy.strip().lower() == "none":
-        return policy
+def _policy_choice(policy: str | None, design_speed: str, base_dir: Path) -> tuple[str, str]:
+    """The policy table a site uses and why: 'none', a bundled table by name, or a file path (relative to the
+    site file). Omitted, the bundled table in the unit system the design speed is written in, so that a US
+    customary design gets the US customary table and a metric design the metric one (the two were developed
+    separately; neither is a conversion of the other)."""
+    if policy is None:
+        name = "us" if written_in_us_customary(design_speed) else "metric"
+        unit = "US customary" if name == "us" else "metric"
+        return name, f"not named in the site file: the bundled {unit} table, as the design speed is in {unit} units"
+    named = policy.strip().lower()
+    if named == "none" or named in BUNDLED_POLICIES:
+        return named, "named in the site file"
     path = Path(policy)
-    return str(path if path.is_absolute() else base_dir / path)
+    return str(path if path.is_absolute() else base_dir / path), "named in the site file"

@@ -136,6 +136,20 @@ def counts_passenger_cars(text: str) -> bool:
 
 
 @functools.lru_cache(maxsize=256)
+def written_in_us_customary(text: str) -> bool:
+    """Whether a speed was written in miles per hour or feet per second (US customary units); call after
+    parse_quantity. Used to pick the policy table that matches the units a designer works in."""
+    quick = _NUMBER_AND_UNIT.fullmatch(text)
+    if quick is None:
+        return False
+    factor = _unit_factor(quick["unit"], "speed")
+    return isinstance(factor, float) and any(math.isclose(factor, us, rel_tol=1e-9) for us in _US_SPEEDS)
+
+
+_US_SPEEDS = (0.44704, 0.3048)
+"""One mile per hour and one foot per second, in m/s (exact by definition of the international foot)."""
+
+
 def _names_passenger_cars(text: str) -> bool:
     return "passenger_car" in str(ureg.Quantity(text).units)
 

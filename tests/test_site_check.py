@@ -141,7 +141,7 @@ def test_bundled_table_reproduces_every_reference_cell(green_book_lengths: list)
 
     The reference rows are keyed by the table's initial speed Va'; ramp speed V' = stop, 15, 20, ... 50 mph.
     """
-    table = load_policy(None)
+    table = load_policy("us")
     ramp_for_initial = {0: None, 14: 15, 18: 20, 22: 25, 26: 30, 30: 35, 36: 40, 40: 45, 44: 50}
     for cell in green_book_lengths:
         ramp = ramp_for_initial[round(cell.initial_speed / MPH)]
@@ -153,12 +153,12 @@ def test_bundled_table_reproduces_every_reference_cell(green_book_lengths: list)
 def test_bilinear_interpolation_by_hand() -> None:
     """Midway between 60 and 65 mph and between ramp speeds 30 and 35 mph:
     mean of 910, 800, 1120, 1000 ft = 957.5 ft (interpolation rule in the table file)."""
-    value = policy_minimum(load_policy(None), 62.5 * MPH, 32.5 * MPH, 0.01)
+    value = policy_minimum(load_policy("us"), 62.5 * MPH, 32.5 * MPH, 0.01)
     assert value.minimum_length == pytest.approx(957.5 * FT, rel=1e-9)
 
 
 def test_stop_column_and_limits() -> None:
-    table = load_policy(None)
+    table = load_policy("us")
     # stop column midway between 65 and 70 mph: (1410 + 1620) / 2 = 1515 ft (Green Book 2011, FROM MEMORY; by hand)
     assert policy_minimum(table, 67.5 * MPH, None, 0.0).minimum_length == pytest.approx(1515 * FT)
     assert policy_minimum(table, 75 * MPH, 30 * MPH, 0.0).minimum_length is None  # beyond the table: no extrapolation
@@ -167,22 +167,61 @@ def test_stop_column_and_limits() -> None:
 
 def test_grade_factor_applied_within_block() -> None:
     """3 to 4 % upgrade, 60 mph highway, 30 mph ramp: 910 ft x 1.5 (Green Book 2011, FROM MEMORY)."""
-    value = policy_minimum(load_policy(None), 60 * MPH, 30 * MPH, 0.035)
+    value = policy_minimum(load_policy("us"), 60 * MPH, 30 * MPH, 0.035)
     assert value.grade_factor == pytest.approx(1.5)
     assert value.minimum_length == pytest.approx(910 * FT * 1.5)
-    steep = policy_minimum(load_policy(None), 60 * MPH, 30 * MPH, 0.055)
+    steep = policy_minimum(load_policy("us"), 60 * MPH, 30 * MPH, 0.055)
     assert steep.grade_factor == pytest.approx(1.9)  # 5-6 % block (FROM MEMORY, about 50 % sure)
     # between the blocks, linear in grade from the 4 % end (1.5) to the 5 % end (1.9): 1.7 at 4.5 % (by hand);
     # 4.99 % (printed +5.0 %) is no longer refused
-    between = policy_minimum(load_policy(None), 60 * MPH, 30 * MPH, 0.045)
+    between = policy_minimum(load_policy("us"), 60 * MPH, 30 * MPH, 0.045)
     assert between.grade_factor == pytest.approx(1.7) and "interpolated in grade" in between.note
-    almost = policy_minimum(load_policy(None), 60 * MPH, 30 * MPH, 0.0499)
+    almost = policy_minimum(load_policy("us"), 60 * MPH, 30 * MPH, 0.0499)
     assert almost.grade_factor == pytest.approx(1.5 + 0.99 * 0.4)
-    beyond = policy_minimum(load_policy(None), 60 * MPH, 30 * MPH, 0.07)
+    beyond = policy_minimum(load_policy("us"), 60 * MPH, 30 * MPH, 0.07)
     assert (
         beyond.minimum_length is None
         and "beyond the table's steepest" in beyond.note
         and "not extrapolated" in beyond.note
     )
-    down = policy_minimum(load_policy(None), 60 * MPH, 30 * MPH, -0.035)
+    down = policy_minimum(load_policy("us"), 60 * MPH, 30 * MPH, -0.035)
     assert down.minimum_length == pytest.approx(910 * FT * 0.6)  # 3-4 % downgrade factor 0.6 (FROM MEMORY)
+
+
+def test_metric_table_cells() -> None:
+    """The bundled metric table (Green Book 2011 metric acceleration-length table, FROM MEMORY, about 60 % sure):
+    100 km/h stop 345 m, 100 km/h with a 60 km/h ramp curve 205 m, 80 km/h with 40 km/h 145 m, 120 km/h stop
+    545 m; merge speed Va 74 km/h at 100 km/h. It is its own table, not the US customary one converted: the US
+    stop column at 100 km/h (62.14 mph, between 1200 ft at 60 mph and 1410 ft at 65 mph, FROM MEMORY) gives
+    1290 ft = 393 m by the interpolation rule, some 14 % longer."""
+    metric = load_policy("metric")
+    kmh = 1 / 3.6
+    assert policy_minimum(metric, 100 * kmh, None, 0.0).minimum_length == pytest.approx(345.0)
+    assert policy_minimum(metric, 100 * kmh, 60 * kmh, 0.0).minimum_length == pytest.approx(205.0)
+    assert policy_minimum(metric, 80 * kmh, 40 * kmh, 0.0).minimum_length == pytest.approx(145.0)
+    assert policy_minimum(metric, 120 * kmh, None, 0.0).minimum_length == pytest.approx(545.0)
+    assert policy_minimum(metric, 100 * kmh, None, 0.0).merge_speed == pytest.approx(74 * kmh)
+    us_stop = policy_minimum(load_policy("us"), 100 * kmh, None, 0.0).minimum_length
+    assert us_stop == pytest.approx((1200 + (100 / 3.6 / 0.44704 - 60) / 5 * 210) * 0.3048, rel=1e-9)
+
+
+def test_the_table_follows_the_units_of_the_design_speed_unless_named(make_site: Any) -> None:
+    """Omitted, the policy table is the bundled one in the unit system the design speed is written in; a site
+    names another with `policy: us` or `policy: metric`. A 120 km/h design speed, beyond the US table's 70 mph,
+    now gets a policy value from the metric table (120 km/h row, 60 km/h column: 410 m, FROM MEMORY)."""
+    in_kmh = assess(make_site(mainline__design_speed="120 km/h"))
+    assert in_kmh.site.policy_file == "metric" and in_kmh.policy is not None
+    assert in_kmh.policy.minimum_length == pytest.approx(410.0)
+    chosen = next(a for a in in_kmh.assumptions if a.name == "Policy table").source
+    assert "metric table, as the design speed is in metric units" in chosen
+    named_us = assess(make_site(mainline__design_speed="120 km/h", policy="us"))
+    assert named_us.site.policy_file == "us" and named_us.policy is not None
+    assert named_us.policy.minimum_length is None and "outside" in named_us.policy.note  # 74.6 mph > 70 mph
+    in_mph = assess(make_site(mainline__design_speed="60 mph", mainline__operating_speed="60 mph"))
+    assert in_mph.site.policy_file == "us" and in_mph.policy is not None
+    # 60 mph row, ramp curve 60 km/h = 37.28 mph between the 35 and 40 mph columns (800, 550 ft; FROM MEMORY)
+    ramp_mph = 60 / 3.6 / 0.44704
+    assert in_mph.policy.minimum_length == pytest.approx((800 + (ramp_mph - 35) / 5 * (550 - 800)) * 0.3048, rel=1e-9)
+    named_metric = assess(make_site(mainline__design_speed="60 mph", mainline__operating_speed="60 mph",
+                                    policy="METRIC"))  # fmt: skip
+    assert named_metric.site.policy_file == "metric"

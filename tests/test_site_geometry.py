@@ -66,16 +66,19 @@ def test_speed_gained_before_the_nose_is_stated_and_the_policy_strict_reading_of
 
 def test_the_default_operating_speed_is_the_policys_running_speed(make_site: Any) -> None:
     """Not given, the operating speed at the merge is the average running speed the policy table sets its merge
-    speeds against (Green Book 2011: merge speeds about 5 mph below the running speed; 100 km/h = 62.1 mph
-    between the 60 and 65 mph rows, running 52 and 55 mph, so about 53.3 mph; from memory), stated as an
-    assumption, never the design speed silently. The issue's case: a level parallel lane of 300 m at 100 km/h
-    design, against a policy minimum of about 244 m, has the car SHORT when the stream runs at the design speed
-    and within the lane at the running speed."""
+    speeds against, from the table in use, stated as an assumption, never the design speed silently. A km/h site
+    takes the metric table: 100 km/h design, running speed 82 km/h (Green Book 2011 metric table, merge speed
+    74 km/h, about 8 km/h below the running speed; from memory). A mph site takes the US customary table: 60 mph
+    design, running speed 52 mph (Green Book 2011 US table, merge speed 47 mph, about 5 mph below; from memory).
+    The issue's case: a level parallel lane of 300 m at 100 km/h design, against a policy minimum of about 205 m,
+    has the car SHORT when the stream runs at the design speed and within the lane at the running speed."""
     data_free = {"design_speed": "100 km/h", "lanes": 3, "adjacent_lane_flow": "600 veh/h"}
     default = assess(make_site(mainline=data_free, geometry__lane_length="300 m"))
-    assert default.site.operating_speed == pytest.approx((52 + (100 / 3.6 / 0.44704 - 60) / 5 * 3) * 0.44704, rel=1e-6)
+    assert default.site.operating_speed == pytest.approx(82 / 3.6, rel=1e-9)
     basis = next(a for a in default.assumptions if a.name == "Mainline operating speed at the merge").source
     assert "average running speed" in basis and "give mainline.operating_speed" in basis
+    in_mph = assess(make_site(mainline={**data_free, "design_speed": "60 mph"}, geometry__lane_length="300 m"))
+    assert in_mph.site.operating_speed == pytest.approx(52 * 0.44704, rel=1e-9)
     at_design = assess(make_site(mainline={**data_free, "operating_speed": "100 km/h"}, geometry__lane_length="300 m"))
     car, car_at_design = default.vehicles[0], at_design.vehicles[0]
     assert car.required_length is not None and car_at_design.required_length is not None
