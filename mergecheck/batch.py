@@ -36,7 +36,6 @@ merge_speed_differential_kmh / _mph       criteria.merge_speed_differential (opt
 
 from __future__ import annotations
 
-import csv
 import gc
 import os
 from collections.abc import Callable, Iterator
@@ -49,7 +48,7 @@ from typing import Any
 
 from .assessment import SiteAssessment, assess, assess_many
 from .errors import InputError
-from .inputs import read_yaml, validated
+from .inputs import csv_rows, read_text, read_yaml, validated
 from .policy import load_policy
 from .site import Site, SiteInput, site_from_input
 
@@ -108,13 +107,13 @@ def _given(value: Any) -> Any:
 
 
 def _csv_entries(path: str) -> Iterator[SiteEntry]:
-    try:
-        text = Path(path).read_text(encoding="utf-8")
-    except (OSError, UnicodeDecodeError) as error:
-        raise InputError(path, "", f"cannot read the CSV file: {error}") from None
-    lines = [line for line in text.splitlines() if not line.lstrip().startswith("#")]
-    for index, row in enumerate(csv.DictReader(lines), start=2):
-        label = f"{path}: row {index}"
+    rows = csv_rows(read_text(path, "the CSV file"), path)
+    if not rows:
+        raise InputError(path, "", "no header and no rows")
+    header = rows[0][1]
+    for line, cells in rows[1:]:
+        label = f"{path}: row {line}"
+        row = dict(zip(header, cells + [""] * (len(header) - len(cells)), strict=False))
         yield SiteEntry(label, partial(csv_row_to_site, row, label))
 
 

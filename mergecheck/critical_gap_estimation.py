@@ -36,11 +36,9 @@ Eno Foundation.
 
 from __future__ import annotations
 
-import csv
 import math
 from collections.abc import Callable
 from dataclasses import dataclass
-from pathlib import Path
 
 import numpy as np
 from numpy.typing import NDArray
@@ -48,6 +46,7 @@ from scipy import optimize
 from scipy.special import ndtr
 
 from .errors import InputError
+from .inputs import csv_rows, read_text
 
 FloatArray = NDArray[np.float64]
 ACCEPTED, REJECTED = "accepted_gap_s", "largest_rejected_gap_s"
@@ -88,32 +87,21 @@ def read_observations(path: str) -> GapObservations:
     first gap offered. Lines starting with ``#`` are comments. Rows are named
     by their line number in the file.
     """
-    try:
-        text = Path(path).read_text(encoding="utf-8")
-    except OSError as error:
-        raise InputError(path, "", f"cannot read the file: {error.strerror}") from None
-    except UnicodeDecodeError:
-        raise InputError(path, "", "not a UTF-8 text file") from None
-    # keep each line's number in the file for messages; '#' lines are comments
-    numbered = [
-        (n, line)
-        for n, line in enumerate(text.splitlines(), start=1)
-        if line.strip() and not line.lstrip().startswith("#")
-    ]
-    if not numbered:
+    rows = csv_rows(read_text(path, "the observations"), path)
+    if not rows:
         raise InputError(path, "", "no header and no rows")
-    rows = list(csv.reader([line for _, line in numbered]))
-    header = [cell.strip() for cell in rows[0]]
+    header_line, header_cells = rows[0]
+    header = [cell.strip() for cell in header_cells]
     for column in (ACCEPTED, REJECTED):
         if column not in header:
             raise InputError(
                 path,
-                f"row {numbered[0][0]}",
+                f"row {header_line}",
                 f"the header needs a column named {column!r} (found: {', '.join(header)})",
             )
     ia, ir = header.index(ACCEPTED), header.index(REJECTED)
     accepted, rejected = [], []
-    for (line, _), cells in zip(numbered[1:], rows[1:], strict=True):
+    for line, cells in rows[1:]:
         a = _seconds(cells[ia] if ia < len(cells) else None, path, line, ACCEPTED, required=True)
         r = _seconds(cells[ir] if ir < len(cells) else None, path, line, REJECTED, required=False)
         if r >= a:
@@ -126,6 +114,16 @@ def read_observations(path: str) -> GapObservations:
         rejected.append(r)
     if len(accepted) < 5:
         raise InputError(path, "", f"needs at least 5 drivers, found {len(accepted)}")
+    if max(rejected) < min(accepted):
+        # every driver's critical gap lies in (rejected, accepted]; when all these intervals share a point, the
+        # likelihood grows without bound as the spread shrinks to zero there: no estimate exists
+        raise InputError(
+            path,
+            ACCEPTED,
+            f"every observation agrees with one critical gap for all drivers, between {max(rejected):g} and"
+            f" {min(accepted):g} s, so the spread cannot be estimated; the estimate needs drivers who rejected a gap"
+            " longer than another driver accepted",
+        )
     return GapObservations(np.array(accepted), np.array(rejected), path)
 
 

@@ -5,6 +5,7 @@ Shared by the ``accel`` command's profile file and the site file.
 
 from __future__ import annotations
 
+import csv
 from pathlib import Path
 from typing import Any, TypeVar
 
@@ -133,6 +134,29 @@ def read_text(path: str | Path, what: str = "the file") -> str:
     except UnicodeDecodeError as error:
         byte = error.object[error.start : error.start + 1].hex()
         raise InputError(str(path), "", f"{what} is not UTF-8 text (byte 0x{byte} at position {error.start})") from None
+
+
+CSV_LINE_LIMIT = 100_000
+"""The longest line a CSV input may hold, in characters (far above any row of values with their units, and
+below the csv module's own field limit, so that a long line gets its own message)."""
+
+
+def csv_rows(text: str, source: str) -> list[tuple[int, list[str]]]:
+    """The records of a CSV text, each with its line number in the file; blank lines and lines starting with
+    ``#`` are skipped. Every line is one record: a quoted cell cannot hold a line break, and a line longer than
+    :data:`CSV_LINE_LIMIT` is refused, each with an :class:`InputError` naming the row."""
+    rows = []
+    for number, line in enumerate(text.splitlines(), start=1):
+        if not line.strip() or line.lstrip().startswith("#"):
+            continue
+        if len(line) > CSV_LINE_LIMIT:
+            raise InputError(source, f"row {number}", f"the line is longer than {CSV_LINE_LIMIT:,} characters")
+        try:
+            rows.append((number, next(csv.reader([line], strict=True))))
+        except csv.Error:
+            rule = "a quoted cell is not closed on its line (cells cannot hold line breaks)"
+            raise InputError(source, f"row {number}", rule) from None
+    return rows
 
 
 def read_yaml(path: str) -> Any:

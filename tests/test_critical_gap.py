@@ -80,6 +80,8 @@ def test_critical_gap_command(cli: Any, repo: Path) -> None:
         ("D9,four,1.5", "not a number"),
         ("D9,-3,", "between 0 and 120"),
         ("D9,nan,", "finite"),
+        ('D9,"4.0\n",1.5', "a quoted cell is not closed on its line"),
+        ("D9,4.0," + "1" * 140_000, "longer than 100,000 characters"),
     ],
 )
 def test_bad_rows_are_named(cli: Any, tmp_path: Path, row: str, rule: str) -> None:
@@ -89,6 +91,24 @@ def test_bad_rows_are_named(cli: Any, tmp_path: Path, row: str, rule: str) -> No
     run = cli("critical-gap", path)
     assert run.code == 2
     assert "row 8" in run.stderr and rule in run.stderr and str(path) in run.stderr
+
+
+@pytest.mark.parametrize(
+    "rows",
+    [
+        ["D1,4.1,", "D2,3.5,", "D3,5.2,", "D4,3.9,", "D5,4.4,"],  # all took the first gap: bounded above only
+        ["D1,4.0,", "D2,3.5,2.0", "D3,5.2,", "D4,3.9,3.0", "D5,4.4,"],  # three first-gap; all agree on 3.0-3.5 s
+    ],
+)
+def test_observations_that_cannot_give_a_spread_are_refused(cli: Any, tmp_path: Path, rows: list[str]) -> None:
+    """When every driver's interval (largest rejected, accepted] shares one point, the interval-censored
+    log-normal likelihood (Troutbeck 1992, Eq. 1) has no maximum: it grows as the spread shrinks to zero there.
+    Both estimators refuse such data with a message instead of a singular-matrix error."""
+    path = tmp_path / "gaps.csv"
+    path.write_text("driver,accepted_gap_s,largest_rejected_gap_s\n" + "\n".join(rows) + "\n")
+    for method in ("mle", "raff"):
+        run = cli("critical-gap", path, "--method", method)
+        assert run.code == 2 and "the spread cannot be estimated" in run.stderr, run.stderr
 
 
 def test_missing_column(cli: Any, tmp_path: Path) -> None:
