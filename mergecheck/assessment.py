@@ -45,7 +45,6 @@ from .gap_acceptance import (
     monte_carlo_check,
 )
 from .headways import HeadwayModel, headway_model
-from .merge_area import COVERAGE, LANES_COVERED
 from .merge_behaviour import SOURCES, plain_words
 from .merge_operations import MergeOperations, merge_operations
 from .policy import PolicyTable, PolicyValue, initial_speed_for, load_policy, policy_minimum
@@ -153,7 +152,10 @@ class SiteAssessment:
     with no parallel lane). [fraction]"""
     policy: PolicyValue | None
     merge_area: MergeOperations | None
-    """Capacity-manual merge-area check; None without a mainline flow."""
+    """Capacity-manual merge-area check; None without a mainline flow or where the method does not apply."""
+    merge_area_not_applied: str
+    """Why the merge-area method was not applied to a site that gives a mainline flow ('' when applied or when
+    there is no mainline flow)."""
     cautions: tuple[str, ...]
 
     @property
@@ -164,7 +166,7 @@ class SiteAssessment:
     @property
     def assumptions(self) -> tuple[Assumption, ...]:
         """Every assumption behind the result, with its value and source."""
-        return _assumptions(self.site, self.vehicles, self.initial_speed, self.initial_speed_basis, self.policy)
+        return _assumptions(self)
 
     def figures_only(self) -> SiteAssessment:
         """The same assessment without the curves along the path (what a batch keeps of each site)."""
@@ -396,6 +398,7 @@ def _site_assessment(
     verdict = performance
     if site.verdict_basis == "policy" and policy_verdict != "none":
         basis, verdict = "policy", policy_verdict
+    merge = merge_operations(site, {r.vehicle.id: r.speed_at_taper_start for r in results})
     return SiteAssessment(
         site=site,
         vehicles=results,
@@ -409,7 +412,8 @@ def _site_assessment(
         initial_speed_basis=initial_basis,
         average_grade=average_grade,
         policy=policy,
-        merge_area=merge_operations(site, {r.vehicle.id: r.speed_at_taper_start for r in results}),
+        merge_area=None if isinstance(merge, str) else merge,
+        merge_area_not_applied=merge if isinstance(merge, str) else "",
         cautions=CAUTIONS,
     )
 
@@ -440,13 +444,9 @@ def _initial_speed(site: Site, table: PolicyTable | None) -> tuple[float, str]:
     return site.controlling_speed, "the controlling-curve design speed (no policy initial speed applies)"
 
 
-def _assumptions(
-    site: Site,
-    results: tuple[VehicleAssessment, ...],
-    initial: float,
-    initial_basis: str,
-    policy: PolicyValue | None,
-) -> tuple[Assumption, ...]:
+def _assumptions(assessment: SiteAssessment) -> tuple[Assumption, ...]:
+    site, results, policy = assessment.site, assessment.vehicles, assessment.policy
+    initial, initial_basis = assessment.initial_speed, assessment.initial_speed_basis
     items = [
         Assumption(
             "Mainline operating speed at the merge",
@@ -514,12 +514,12 @@ def _assumptions(
         )
         for parameter in v.parameters:
             items.append(Assumption(f"{v.id}: {parameter.name}", parameter.text, parameter.source))
-    if site.merge.mainline_flow is not None and site.lanes not in LANES_COVERED:
+    if assessment.merge_area_not_applied:
         items.append(
             Assumption(
                 "Merge-area method",
-                f"not applied: {site.lanes} lane{'s' if site.lanes > 1 else ''} in the direction of travel",
-                f"{COVERAGE} (chapter 14)",
+                f"not applied: {assessment.merge_area_not_applied}",
+                "Highway Capacity Manual 6th/7th ed., chapter 14",
             )
         )
     elif site.merge.mainline_flow is not None:

@@ -38,7 +38,7 @@ from __future__ import annotations
 
 import gc
 import os
-from collections.abc import Callable, Iterator
+from collections.abc import Callable, Iterator, Mapping
 from concurrent.futures import ProcessPoolExecutor
 from contextlib import contextmanager, nullcontext
 from dataclasses import dataclass
@@ -117,7 +117,7 @@ def _csv_entries(path: str) -> Iterator[SiteEntry]:
         yield SiteEntry(label, partial(csv_row_to_site, row, label))
 
 
-def csv_row_to_site(row: dict[str, str | None], label: str) -> dict[str, Any]:
+def csv_row_to_site(row: Mapping[str, str | None], label: str) -> dict[str, Any]:
     """A CSV row in the site file's form (strings with units), for the same validation."""
     cells: dict[str, str] = {key.strip(): (value or "").strip() for key, value in row.items() if key}
 

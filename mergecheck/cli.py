@@ -26,16 +26,16 @@ from .exception import design_exception
 from .figures import vehicle_figures
 from .headways import HEADWAY_MODELS, headway_model, mean_wait
 from .inputs import ProfileFile, build_profile, check_grade, read_yaml, validated
-from .merge_area import COVERAGE, LANES_COVERED, merge_area, passenger_car_flow
+from .merge_area import COVERAGE, LANES_COVERED, OutsideMethod, merge_area, passenger_car_flow
 from .merge_operations import TRUCK_EQUIVALENT
 from .profile import VerticalProfile
 from .report import csv_report, json_report, markdown, terminal
 from .results import AccelerationRun, GapFigures
-from .shockwave import TrafficState, queue_growth
+from .shockwave import TrafficState, on_one_relation, queue_growth, shock_speed
 from .site import SiteInput, load_site
 from .sweep import parse_range, sweep
 from .trajectory import accelerate
-from .units import counts_passenger_cars, parse_quantity
+from .units import counts_passenger_cars, parse_quantity, show
 from .vehicles import load_bundled, load_vehicle
 
 EXIT_OK, EXIT_SHORT, EXIT_INPUT, EXIT_INTERNAL = 0, 1, 2, 3
@@ -325,15 +325,18 @@ def _merge_area(args: argparse.Namespace, out: Console, err: Console) -> int:
         speeds[name] = parse_quantity(text, "speed", source="command line", field=name)
         if not 15 / 3.6 <= speeds[name] <= 160 / 3.6:
             raise InputError("command line", name, "must lie between 15 and 160 km/h")
-    result = merge_area(
-        lanes=args.lanes,
-        mainline_pc_h=mainline,
-        ramp_pc_h=ramp,
-        acceleration_length_ft=length / 0.3048,
-        free_flow_speed_mph=speeds["--ffs"] / 0.44704,
-        ramp_free_flow_speed_mph=speeds["--ramp-ffs"] / 0.44704,
-        lanes_downstream=args.lanes_downstream,
-    )
+    try:
+        result = merge_area(
+            lanes=args.lanes,
+            mainline_pc_h=mainline,
+            ramp_pc_h=ramp,
+            acceleration_length_ft=length / 0.3048,
+            free_flow_speed_mph=speeds["--ffs"] / 0.44704,
+            ramp_free_flow_speed_mph=speeds["--ramp-ffs"] / 0.44704,
+            lanes_downstream=args.lanes_downstream,
+        )
+    except OutsideMethod as outside:
+        raise InputError("command line", "--ramp-flow, --accel-length, --ramp-ffs", str(outside)) from None
     return _show(args, out, lambda: json_report.merge_area_command_json(result), lambda: terminal.area_view(result))
 
 
@@ -364,6 +367,14 @@ def _queue(args: argparse.Namespace, out: Console, err: Console) -> int:
         raise InputError("command line", "--duration", "must be positive and at most 24 h")
     if arriving.density == queued.density:
         raise InputError("command line", "--discharge-density", "the two states must differ in density")
+    if not on_one_relation(arriving, queued):
+        w = shock_speed(arriving, queued)
+        raise InputError(
+            "command line",
+            "--discharge-density" if args.discharge_density is not None else "--discharge-speed",
+            f"the two states cannot lie on one flow-density relation: the shock between them would run at"
+            f" {show(w, 'speed', args.units)}, faster than the traffic itself (check the densities or speeds)",
+        )
     result = queue_growth(arriving, queued, duration)
     return _show(args, out, lambda: json_report.queue_json(result), lambda: terminal.queue_view(result, args.units))
 

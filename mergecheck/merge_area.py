@@ -68,6 +68,13 @@ MI_PER_KM = 0.621371192
 LANES_COVERED = range(2, 6)
 """Lanes in one direction the merge method covers."""
 COVERAGE = "the capacity manual's merge method covers 2 to 5 lanes in one direction"
+
+
+class OutsideMethod(ValueError):
+    """The merge method's equations leave their physical range for these inputs (a share outside 0 to 1, a
+    negative density): the inputs lie outside the conditions the equations were fitted on."""
+
+
 OUTER_LANE_MAX = 2700.0
 """Highest average flow in the outer lanes the lane-distribution check allows. [pc/h/ln]"""
 OUTER_LANE_RATIO = 1.5
@@ -247,11 +254,22 @@ def merge_area(
     (0.24, 261, 443.6, 12.0, 'B')
     """
     p_fm = merge_influence_share(lanes, ramp_pc_h, acceleration_length_ft, ramp_free_flow_speed_mph)
+    if not 0.0 <= p_fm <= 1.0:
+        equation = "14-3" if lanes == 3 else "14-4"
+        raise OutsideMethod(
+            f"Eq. {equation} gives P_FM {p_fm:.3f}, outside 0 to 1 (it is a share of the mainline flow): the ramp"
+            " flow, acceleration length and ramp speed lie outside the conditions the equation was fitted on"
+        )
     lane_five = lane_five_flow(mainline_pc_h) if lanes == 5 else 0.0
     approaching = mainline_pc_h - lane_five
     v12, binding = checked_lanes_1_2(min(lanes, 4), approaching, approaching * p_fm)  # Eq. 14-2, then the checks
     vr12 = v12 + ramp_pc_h
     density = 5.475 + 0.00734 * ramp_pc_h + 0.0078 * v12 - 0.00627 * acceleration_length_ft  # Eq. 14-22
+    if density < 0.0:
+        raise OutsideMethod(
+            f"Eq. 14-22 gives an influence-area density of {density:.1f} pc/mi/ln, below 0: an acceleration length"
+            " this long for flows this light lies outside the conditions the equation was fitted on"
+        )
     down_lanes = lanes_downstream or lanes
     downstream = CapacityCheck(
         name="downstream freeway section",
@@ -271,7 +289,7 @@ def merge_area(
         lane_five_pc_h=lane_five,
         lane_distribution=binding,
         vr12_pc_h=vr12,
-        density_pc_mi_ln=max(density, 0.0),
+        density_pc_mi_ln=density,
         los=level_of_service(density, breaks_down(downstream, ramp)),
         downstream=downstream,
         influence_area=CapacityCheck(

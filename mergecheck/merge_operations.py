@@ -39,7 +39,15 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .merge_area import LANES_COVERED, MergeArea, freeway_capacity_per_lane, merge_area, passenger_car_flow
+from .merge_area import (
+    COVERAGE,
+    LANES_COVERED,
+    MergeArea,
+    OutsideMethod,
+    freeway_capacity_per_lane,
+    merge_area,
+    passenger_car_flow,
+)
 from .shockwave import QueueGrowth, QueueHistory, Triangular, queue_growth, queue_history
 from .site import MergeAreaSettings, Site
 
@@ -89,9 +97,10 @@ class MergeOperations:
 _PEAK_15 = 900.0  # s: the analysis period the peak-hour factor describes
 
 
-def merge_operations(site: Site, speeds_at_lane_end: dict[str, float]) -> MergeOperations | None:
-    """The merge-area check for a site; None when the site gives no mainline flow or has one lane, or more than
-    five, in the direction (outside the manual's method; the site's assumptions say so).
+def merge_operations(site: Site, speeds_at_lane_end: dict[str, float]) -> MergeOperations | str | None:
+    """The merge-area check for a site; None when the site gives no mainline flow; a sentence saying why when the
+    manual's method does not apply (one lane, or more than five, in the direction; its equations outside their
+    range for these inputs).
 
     Parameters
     ----------
@@ -99,8 +108,10 @@ def merge_operations(site: Site, speeds_at_lane_end: dict[str, float]) -> MergeO
         Each design vehicle's speed at the end of the full-width lane. [m/s]
     """
     m = site.merge
-    if m.mainline_flow is None or site.lanes not in LANES_COVERED:
+    if m.mainline_flow is None:
         return None
+    if site.lanes not in LANES_COVERED:
+        return f"{site.lanes} lane{'s' if site.lanes > 1 else ''} in the direction of travel: {COVERAGE}"
     e_t = TRUCK_EQUIVALENT[m.terrain]
     mainline_pc = passenger_car_flow(m.mainline_flow * 3600, m.mainline_heavy_vehicles, e_t, m.peak_hour_factor)
     equivalents = []
@@ -121,16 +132,19 @@ def merge_operations(site: Site, speeds_at_lane_end: dict[str, float]) -> MergeO
             / m.peak_hour_factor
         )
     length = site.lane_length + site.taper_length
-    area = merge_area(
-        lanes=site.lanes,
-        mainline_pc_h=mainline_pc,
-        ramp_pc_h=ramp_pc,
-        acceleration_length_ft=length / FT,
-        free_flow_speed_mph=m.free_flow_speed / MPH,
-        ramp_free_flow_speed_mph=m.ramp_free_flow_speed / MPH,
-        lanes_downstream=site.lanes_downstream,
-        ramp_lanes=m.ramp_lanes,
-    )
+    try:
+        area = merge_area(
+            lanes=site.lanes,
+            mainline_pc_h=mainline_pc,
+            ramp_pc_h=ramp_pc,
+            acceleration_length_ft=length / FT,
+            free_flow_speed_mph=m.free_flow_speed / MPH,
+            ramp_free_flow_speed_mph=m.ramp_free_flow_speed / MPH,
+            lanes_downstream=site.lanes_downstream,
+            ramp_lanes=m.ramp_lanes,
+        )
+    except OutsideMethod as outside:
+        return str(outside)
     veh_per_pc = 1.0 / (1.0 + m.mainline_heavy_vehicles * (e_t - 1.0))  # f_HV
     queue = history = None
     if area.downstream.exceeded:

@@ -23,6 +23,7 @@ import functools
 import importlib.resources
 import itertools
 from dataclasses import dataclass
+from typing import Annotated
 
 import numpy as np
 from pydantic import BaseModel, ConfigDict, Field, model_validator
@@ -42,13 +43,20 @@ class _Units(BaseModel):
     length: str
 
 
+# Plausible ranges in the table's own units (mph or km/h, ft or m): wide enough for either system.
+_Speed = Annotated[float, Field(gt=0, le=200)]
+_Initial = Annotated[float, Field(ge=0, le=200)]
+_Length = Annotated[float, Field(ge=0, le=20_000)]
+_Factor = Annotated[float, Field(gt=0, le=10)]
+
+
 class _GradeBlock(BaseModel):
-    model_config = ConfigDict(extra="forbid", frozen=True)
+    model_config = ConfigDict(extra="forbid", frozen=True, allow_inf_nan=False)
     min_grade: float = Field(ge=-0.1, le=0.1)
     max_grade: float = Field(ge=-0.1, le=0.1)
-    highway_speeds: list[float] = Field(min_length=1)
-    ramp_speeds: list[float] = Field(min_length=1)
-    factors: list[list[float | None]]
+    highway_speeds: list[_Speed] = Field(min_length=1)
+    ramp_speeds: list[_Speed] = Field(min_length=1)
+    factors: list[list[_Factor | None]]
 
     @model_validator(mode="after")
     def _shape(self) -> _GradeBlock:
@@ -60,18 +68,18 @@ class _GradeBlock(BaseModel):
 
 
 class _PolicyFile(BaseModel):
-    model_config = ConfigDict(extra="forbid", frozen=True)
+    model_config = ConfigDict(extra="forbid", frozen=True, allow_inf_nan=False)
     title: str
     source: str
     caution: str = ""
     length_definition: str
     units: _Units
-    highway_speeds: list[float] = Field(min_length=2)
-    merge_speeds: list[float] = Field(min_length=2)
-    running_speeds: list[float] | None = None
-    ramp_speeds: list[float | str] = Field(min_length=1)
-    ramp_initial_speeds: list[float]
-    lengths: list[list[float | None]]
+    highway_speeds: list[_Speed] = Field(min_length=2)
+    merge_speeds: list[_Speed] = Field(min_length=2)
+    running_speeds: list[_Speed] | None = None
+    ramp_speeds: list[_Speed | str] = Field(min_length=1)
+    ramp_initial_speeds: list[_Initial]
+    lengths: list[list[_Length | None]]
     grade_factors: list[_GradeBlock] = Field(default_factory=list)
     interpolation: str
 
@@ -87,6 +95,8 @@ class _PolicyFile(BaseModel):
             raise ValueError("lengths must have one row per highway speed and one column per ramp speed")
         if any(b <= a for a, b in zip(self.highway_speeds, self.highway_speeds[1:], strict=False)):
             raise ValueError("highway_speeds must increase")
+        if any(va >= v for va, v in zip(self.merge_speeds, self.highway_speeds, strict=True)):
+            raise ValueError("each merge speed must be below its highway design speed")
         numeric = [s for s in self.ramp_speeds if s != "stop"]
         if any(isinstance(s, str) for s in numeric):
             raise ValueError("ramp speeds are numbers or 'stop'")

@@ -45,6 +45,25 @@ class TrafficState:
         return self.flow / self.density if self.density > 0 else math.inf
 
 
+def on_one_relation(a: TrafficState, b: TrafficState) -> bool:
+    """Whether two states can lie on one concave flow-density relation through the origin (the relation of
+    kinematic-wave theory): then the shock between them, the chord's slope, is no faster than the lower-density
+    state's own speed, w <= q1 / k1 (a chord of a concave function through the origin is no steeper than the chord
+    from the origin). Upstream-moving shocks are held to the same bound in magnitude, |w| <= the faster state's
+    speed: backward waves run at 15-25 km/h on freeways, far below traffic speeds (common practice).
+
+    >>> on_one_relation(TrafficState(1800 / 3600, 20 / 1000), TrafficState(1200 / 3600, 80 / 1000))
+    True
+    >>> on_one_relation(TrafficState(4000 / 3600, 40 / 1000), TrafficState(3600 / 3600, 40.0003 / 1000))
+    False
+    """
+    if a.density == b.density:
+        return False
+    low = a if a.density < b.density else b
+    w = shock_speed(a, b)
+    return w <= low.speed * (1 + 1e-9) and -w <= max(a.speed, b.speed) * (1 + 1e-9)
+
+
 def shock_speed(upstream: TrafficState, downstream: TrafficState) -> float:
     """Speed of the boundary between two states, Eq. (1). [m/s]
 

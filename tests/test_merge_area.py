@@ -8,6 +8,7 @@ from typing import Any
 import numpy as np
 import pytest
 
+from mergecheck.assessment import assess
 from mergecheck.merge_area import level_of_service, merge_area, merge_influence_share, passenger_car_flow
 from mergecheck.shockwave import Greenshields, Triangular, queue_history, shock_speed
 from mergecheck.units import parse_quantity
@@ -156,6 +157,36 @@ def test_one_lane_direction_says_why_there_is_no_merge_area(cli: Any, repo: Path
     assert doc["merge_area"] is None
     (note,) = [a for a in doc["assumptions"] if a["name"] == "Merge-area method"]
     assert note["value"].startswith("not applied: 1 lane")
+
+
+def test_equations_outside_their_range_are_not_applied(cli: Any, make_site: Any) -> None:
+    """P_FM is a share of the mainline flow and D_R a density: where the fitted equations leave 0 to 1 and
+    0 and above, the method does not apply. Four lanes, v_R 50 pc/h, L_A 1,500 m = 4,921 ft, S_FR 80 km/h =
+    49.7 mi/h: Eq. 14-4 gives 0.2178 - 0.00625 + 0.01115 x 4921 / 49.71 = 1.315 (by hand; HCM 6th ed., equation
+    as in the module docstring). Before, the command printed it and a density clipped to 0."""
+    run = cli("merge-area", "--lanes", "4", "--mainline-flow", "100 pc/h", "--ramp-flow", "50 pc/h",
+              "--accel-length", "1500 m", "--ffs", "120 km/h", "--ramp-ffs", "80 km/h")  # fmt: skip
+    assert run.code == 2 and "P_FM 1.315, outside 0 to 1" in run.stderr
+    # three lanes, 1,000 m = 3,281 ft of lane plus taper at light flows: Eq. 14-22 goes below 0, by hand
+    # 5.475 + 0.00734 x 106 + 0.0078 x 214 - 0.00627 x 3281 = -12.6 (v_R, v12 in pc/h with the PHF 0.94)
+    light = make_site(
+        mainline={"design_speed": "100 km/h", "lanes": 3, "adjacent_lane_flow": "100 veh/h", "flow": "300 veh/h"},
+        ramp__flow="100 veh/h", geometry__lane_length="910 m",
+    )  # fmt: skip
+    assessment = assess(light)
+    assert assessment.merge_area is None
+    assert assessment.merge_area_not_applied.startswith("Eq. 14-22 gives an influence-area density of -12.6")
+    (note,) = [a for a in assessment.assumptions if a.name == "Merge-area method"]
+    assert note.value.startswith("not applied: Eq. 14-22")
+
+
+def test_queue_states_off_any_flow_density_relation_are_refused(cli: Any) -> None:
+    """Two states 0.0003 veh/km apart whose flows differ by 400 veh/h would put the shock at -1.3 million km/h
+    (w = dq / dk); no concave flow-density relation through the origin holds both (kinematic-wave theory:
+    a chord is no steeper than the lower-density state's speed). Before, it printed a 6,000 km queue."""
+    run = cli("queue", "--arrive", "4000 veh/h", "--arrive-density", "40 veh/km", "--discharge", "3600 veh/h",
+              "--discharge-density", "40.0003 veh/km")  # fmt: skip
+    assert run.code == 2 and "cannot lie on one flow-density relation" in run.stderr
 
 
 def test_shock_speed_hand_computation(cli: Any) -> None:

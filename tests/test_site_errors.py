@@ -242,3 +242,27 @@ def test_sweep_values_are_checked_as_the_site_file_checks_them(cli: Any, repo: P
     """Before, a sweep divided by zero, raised from the headway model, exhausted memory or accepted -1000 veh/h."""
     run = cli("sweep", repo / "examples" / "willowmere-level.yaml", "--vary", vary)
     assert run.code == 2 and rule in " ".join(run.stderr.split()) and "Traceback" not in run.stderr
+
+
+@pytest.mark.parametrize(
+    ("old", "new", "field", "rule"),
+    [
+        ("ramp_initial_speeds: [0, ", "ramp_initial_speeds: [.nan, ", "ramp_initial_speeds.0", "finite number"),
+        ("  - [230, 210", "  - [-230, 210", "lengths.0.0", "greater than or equal to 0"),
+        ("merge_speeds:   [65,", "merge_speeds:   [85,", "", "below its highway design speed"),
+        ("highway_speeds: [80,", "highway_speeds: [.inf,", "highway_speeds.0", "finite number"),
+    ],
+)
+def test_a_policy_table_out_of_range_is_refused(
+    cli: Any, repo: Path, tmp_path: Path, old: str, new: str, field: str, rule: str
+) -> None:
+    """A policy table is data a user supplies: NaN speeds used to give NaN in the JSON (not valid JSON) and a
+    car that "cannot reach"; a negative length a policy minimum of -395 m. Each is refused by field and rule."""
+    text = (repo / "examples" / "agency-policy-table.yaml").read_text()
+    assert old in text
+    table = tmp_path / "table.yaml"
+    table.write_text(text.replace(old, new, 1))
+    site = tmp_path / "site.yaml"
+    site.write_text((repo / "examples" / "willowmere-level.yaml").read_text() + f"\npolicy: {table}\n")
+    run = cli("check", site, "--json")
+    assert run.code == 2 and str(table) in run.stderr and field in run.stderr and rule in run.stderr, run.stderr

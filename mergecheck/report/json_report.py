@@ -158,6 +158,7 @@ def site_json(assessment: SiteAssessment) -> dict[str, Any]:
             "table": policy.table.origin,
         },
         "merge_area": merge_area_json(assessment.merge_area),
+        "merge_area_not_applied": assessment.merge_area_not_applied or None,
         "assumptions": [{"name": a.name, "value": a.value, "source": a.source} for a in assessment.assumptions],
         "cautions": list(assessment.cautions),
     }
