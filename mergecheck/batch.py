@@ -48,7 +48,7 @@ from typing import Any
 
 from .assessment import SiteAssessment, assess, assess_many
 from .errors import InputError
-from .inputs import csv_rows, read_text, read_yaml, validated
+from .inputs import csv_rows, printable, read_text, read_yaml, validated
 from .policy import load_policy
 from .site import Site, SiteInput, site_from_input
 
@@ -92,7 +92,7 @@ def read_entries(path: str) -> list[SiteEntry]:
         files = sorted(p for p in source.iterdir() if p.suffix in (".yaml", ".yml"))
         if not files:
             raise InputError(path, "", "the folder holds no .yaml site files")
-        return [SiteEntry(str(f), partial(read_yaml, str(f))) for f in files]
+        return [SiteEntry(printable(str(f)), partial(read_yaml, str(f))) for f in files]
     if source.suffix.lower() == ".csv":
         return list(_csv_entries(path))
     raw = read_yaml(path)

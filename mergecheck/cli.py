@@ -25,7 +25,7 @@ from .errors import InputError
 from .exception import design_exception
 from .figures import vehicle_figures
 from .headways import HEADWAY_MODELS, headway_model, mean_wait
-from .inputs import ProfileFile, build_profile, check_grade, read_yaml, validated
+from .inputs import ProfileFile, build_profile, check_grade, control_character, printable, read_yaml, validated
 from .merge_area import COVERAGE, LANES_COVERED, OutsideMethod, merge_area, passenger_car_flow
 from .merge_operations import TRUCK_EQUIVALENT
 from .profile import VerticalProfile
@@ -167,17 +167,37 @@ def build_parser() -> argparse.ArgumentParser:
     return parser
 
 
+def _refuse_control_characters(arguments: Sequence[str]) -> None:
+    """Raise :class:`InputError` for the first argument holding a control character, naming its option."""
+    for number, argument in enumerate(arguments, start=1):
+        found = control_character(argument)
+        if found is not None:
+            before = arguments[number - 2] if number > 1 else ""
+            where = before if before.startswith("--") else f"argument {number}"
+            raise InputError("command line", where, f"holds the control character {found}")
+
+
+def _print_input_error(error: InputError, stderr: Console) -> int:
+    message = printable(str(error))
+    stderr.print(Text.assemble(("mergecheck: error:", "bold red"), " ", message), soft_wrap=True)
+    return EXIT_INPUT
+
+
 def main(argv: Sequence[str] | None = None) -> int:
-    args = build_parser().parse_args(argv)
+    arguments = [str(argument) for argument in (sys.argv[1:] if argv is None else argv)]
     # user text (site names, paths, values in messages) is never read as console markup
     stdout = Console(width=100 if not sys.stdout.isatty() else None, highlight=False, markup=False)
     stderr = Console(stderr=True, highlight=False, markup=False)
+    try:  # before argparse, which echoes a value it refuses as it stands
+        _refuse_control_characters(arguments)
+    except InputError as error:
+        return _print_input_error(error, stderr)
+    args = build_parser().parse_args(arguments)
     try:
         handler: Handler = args.run
         return handler(args, stdout, stderr)
     except InputError as error:
-        stderr.print(Text.assemble(("mergecheck: error:", "bold red"), " ", str(error)), soft_wrap=True)
-        return EXIT_INPUT
+        return _print_input_error(error, stderr)
     except KeyboardInterrupt:
         raise
     except Exception as error:  # a defect, never a verdict: its own exit code and a request for a report

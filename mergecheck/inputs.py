@@ -115,14 +115,60 @@ _SAFE_LOADER: Any = _UniqueKeyLoader
 """The loader every input file goes through."""
 
 
+_BIDI_CONTROLS = frozenset("\u202a\u202b\u202c\u202d\u202e\u2066\u2067\u2068\u2069")
+"""Unicode bidirectional overrides and isolates: they reorder what a reader sees on screen and in reports."""
+
+
+def _is_control(char: str) -> bool:
+    code = ord(char)
+    return (code < 0x20 and char not in "\t\n") or 0x7F <= code <= 0x9F or char in _BIDI_CONTROLS
+
+
+def printable(text: str) -> str:
+    """Text with every control character (see :func:`control_character`) written as an escape, ``\\x1b``:
+    for echoing what a user gave (a file name, a refused value) without passing it to the terminal."""
+    return "".join(char.encode("unicode_escape").decode("ascii") if _is_control(char) else char for char in text)
+
+
+def control_character(text: str) -> str | None:
+    """The first control character in text (other than tab and line break), as 'U+001B', else None.
+
+    Control characters (C0, DEL, C1) reach a terminal as escape sequences (cursor moves, hyperlinks, hidden
+    text) and bidirectional overrides reorder what a report shows; no name, note or value needs them.
+    """
+    found = next((char for char in text if _is_control(char)), None)
+    return None if found is None else f"U+{ord(found):04X}"
+
+
+def refuse_control_characters(value: Any, source: str, field: str = "") -> None:
+    """Raise :class:`InputError` naming the field of the first string (key or value) in a loaded document that
+    holds a control character (see :func:`control_character`)."""
+    if isinstance(value, str):
+        found = control_character(value)
+        if found is not None:
+            rule = f"holds the control character {found}; text takes printable characters, tabs and line breaks only"
+            raise InputError(source, field, rule)
+    elif isinstance(value, dict):
+        for key, item in value.items():
+            name = f"{field}.{key}" if field else str(key)
+            refuse_control_characters(key, source, field)
+            refuse_control_characters(item, source, name)
+    elif isinstance(value, list):
+        for index, item in enumerate(value):
+            refuse_control_characters(item, source, f"{field}.{index}" if field else str(index))
+
+
 def parse_yaml(text: str, source: str) -> Any:
-    """YAML text through the safe loader; malformed text raises :class:`InputError`."""
+    """YAML text through the safe loader; malformed text, or a string holding a control character, raises
+    :class:`InputError`."""
     try:
-        return yaml.load(text, Loader=_SAFE_LOADER)
+        data = yaml.load(text, Loader=_SAFE_LOADER)
     except yaml.YAMLError as error:
         raise InputError(source, "", f"not valid YAML: {error}") from None
     except ValueError as error:  # e.g. an integer of thousands of digits, beyond Python's conversion limit
         raise InputError(source, "", f"not a value a site can hold: {str(error)[:120]}") from None
+    refuse_control_characters(data, source)
+    return data
 
 
 def read_text(path: str | Path, what: str = "the file") -> str:
@@ -151,6 +197,9 @@ def csv_rows(text: str, source: str) -> list[tuple[int, list[str]]]:
             continue
         if len(line) > CSV_LINE_LIMIT:
             raise InputError(source, f"row {number}", f"the line is longer than {CSV_LINE_LIMIT:,} characters")
+        found = control_character(line)
+        if found is not None:
+            raise InputError(source, f"row {number}", f"holds the control character {found}")
         try:
             rows.append((number, next(csv.reader([line], strict=True))))
         except csv.Error:

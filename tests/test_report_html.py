@@ -6,6 +6,7 @@ from html.parser import HTMLParser
 from pathlib import Path
 from typing import Any
 
+import markdown_it
 import yaml
 
 from mergecheck.assessment import assess
@@ -124,3 +125,20 @@ def test_markdown_exception_section_only_when_short_or_asked(cli: Any, repo: Pat
     assert "## Design exception" in short.read_text() and "Mitigation options" in short.read_text()
     assert "## Design exception" not in fine.read_text()
     assert "## Design exception" in asked.read_text()
+
+
+def test_user_text_in_markdown_is_text_not_markup(cli: Any, repo: Path, tmp_path: Path) -> None:
+    """Markdown passes raw HTML through and reads links and emphasis (CommonMark 0.31, sections 4.6, 6.3, 6.4):
+    a site name or note must come out as the text the user wrote. Rendered with markdown-it-py, a CommonMark
+    implementation (installed with rich), the report holds no element the user typed, and the words survive."""
+    site = yaml.safe_load((repo / "examples" / "willowmere-level.yaml").read_text())
+    site["name"] = "Ramp <img src=x onerror=alert(1)> | [click](javascript:alert(1))"
+    site["notes"] = "# not a heading <script>alert(1)</script> **not bold** _not italic_ ![i](http://x/i.png)"
+    site_file = tmp_path / "site.yaml"
+    site_file.write_text(yaml.safe_dump(site))
+    report = tmp_path / "report.md"
+    assert cli("check", site_file, "--markdown", report).code == 0
+    rendered = markdown_it.MarkdownIt("commonmark").enable("table").render(report.read_text())
+    for element in ("<img", "<script", "<a ", "<strong>not", "<em>not", "<h1>not"):
+        assert element not in rendered, element
+    assert "&lt;img src=x onerror=alert(1)&gt;" in rendered and "**not bold**" in rendered

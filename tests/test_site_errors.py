@@ -266,3 +266,24 @@ def test_a_policy_table_out_of_range_is_refused(
     site.write_text((repo / "examples" / "willowmere-level.yaml").read_text() + f"\npolicy: {table}\n")
     run = cli("check", site, "--json")
     assert run.code == 2 and str(table) in run.stderr and field in run.stderr and rule in run.stderr, run.stderr
+
+
+def test_control_characters_are_refused_on_every_path(cli: Any, repo: Path, tmp_path: Path) -> None:
+    """An escape sequence in a name reaches the terminal raw (ECMA-48: ESC ] 8 plants a hyperlink, ESC [ 2J clears
+    the screen) and a bidirectional override (U+202E) reorders what a report shows: refused in a site file, a
+    CSV row and a command-line argument, naming where; a file name that holds one is echoed escaped."""
+    site = tmp_path / "site.yaml"
+    bad = yaml.safe_load((repo / "examples" / "willowmere-level.yaml").read_text())
+    bad["name"] = "Willowmere \x1b]8;;http://example.invalid\x07Avenue"
+    site.write_text(yaml.safe_dump(bad))
+    run = cli("check", site)
+    assert run.code == 2 and "name: holds the control character U+001B" in run.stderr and "\x1b" not in run.stderr
+    bad["name"] = "Willowmere \u202e Avenue"
+    site.write_text(yaml.safe_dump(bad, allow_unicode=True))
+    assert "U+202E" in cli("check", site).stderr
+    rows = tmp_path / "gaps.csv"
+    rows.write_text("accepted_gap_s,largest_rejected_gap_s\n4.1,2.0\x1b[2J\n")
+    run = cli("critical-gap", rows)
+    assert run.code == 2 and "row 2: holds the control character U+001B" in run.stderr
+    run = cli("accel", "--vehicle", "bus\x1b[2J", "--from", "0 km/h", "--to", "50 km/h", "--grade", "0 %")
+    assert run.code == 2 and "--vehicle: holds the control character U+001B" in run.stderr

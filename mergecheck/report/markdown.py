@@ -2,6 +2,9 @@
 
 from __future__ import annotations
 
+import html
+import re
+
 from ..assessment import SiteAssessment, summary_sentence
 from ..batch import BatchResult, BatchSummary
 from ..cautions import CAUTIONS
@@ -10,10 +13,17 @@ from ..units import UnitSystem, number, show, unit_symbol
 from .table_rows import batch_row
 from .wording import clearing, merge_behaviour, mitigation_change, slowing_notes, verdict_bases
 
+_PUNCTUATION = re.compile(r"([\\`*\[\]|#!]|(?<![A-Za-z0-9])_|_(?![A-Za-z0-9]))")
+"""Markdown punctuation that can start emphasis, code, a link, an image, a heading or a table cell (an
+underscore inside a word, as in P_FM, cannot: CommonMark 0.31, section 6.2)."""
+
 
 def _cell(text: object) -> str:
-    """Text safe inside a Markdown table cell."""
-    return str(text).replace("\\", "\\\\").replace("|", "\\|").replace("\n", " ")
+    """User or free text, safe anywhere in a line of Markdown, a table cell included: HTML is written as
+    entities (never passed through as markup), Markdown punctuation is escaped with a backslash (CommonMark
+    0.31, section 2.4) and line breaks become spaces."""
+    escaped = html.escape(str(text), quote=False).replace("\n", " ")
+    return _PUNCTUATION.sub(r"\\\1", escaped)
 
 
 def site_markdown(assessment: SiteAssessment, system: UnitSystem, exception: DesignException | None = None) -> str:
@@ -42,7 +52,7 @@ def site_markdown(assessment: SiteAssessment, system: UnitSystem, exception: Des
         "",
         "| Item | Value |",
         "|---|---|",
-        f"| Site file | `{_cell(site.source)}` |",
+        f"| Site file | {_cell(site.source)} |",
         f"| Mainline design speed / operating speed | {show(site.design_speed, 'speed', system)} / {show(site.operating_speed, 'speed', system)} |",
         f"| Through lanes per direction | {site.lanes} |",
         f"| Adjacent-lane flow | {site.adjacent_lane_flow * 3600:.0f} veh/h |",
