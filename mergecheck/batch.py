@@ -85,11 +85,19 @@ class BatchResult:
     error: str | None
 
 
+def source_files(path: str) -> list[Path]:
+    """The files a batch reads: the site files of a folder, or the one file given."""
+    source = Path(path)
+    if source.is_dir():
+        return sorted(p for p in source.iterdir() if p.suffix in (".yaml", ".yml"))
+    return [source]
+
+
 def read_entries(path: str) -> list[SiteEntry]:
     """Sites from a folder of site files, a YAML file with a list of sites, or a CSV with one site a row."""
     source = Path(path)
     if source.is_dir():
-        files = sorted(p for p in source.iterdir() if p.suffix in (".yaml", ".yml"))
+        files = source_files(path)
         if not files:
             raise InputError(path, "", "the folder holds no .yaml site files")
         return [SiteEntry(printable(str(f)), partial(read_yaml, str(f))) for f in files]

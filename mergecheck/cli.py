@@ -6,11 +6,8 @@ Exit codes: 0 done (all checks pass), 1 a check falls short, 2 bad input.
 from __future__ import annotations
 
 import argparse
-import os
 import sys
-import tempfile
 from collections.abc import Callable, Sequence
-from pathlib import Path
 from typing import Any, NoReturn
 
 from rich.console import Console, RenderableType
@@ -19,7 +16,7 @@ from rich.text import Text
 
 from . import __version__
 from .assessment import assess
-from .batch import assess_all, ranked, read_entries, summarize
+from .batch import assess_all, ranked, read_entries, source_files, summarize
 from .critical_gap_estimation import ESTIMATORS, read_observations
 from .errors import InputError
 from .exception import design_exception
@@ -28,6 +25,7 @@ from .headways import HEADWAY_MODELS, headway_model, mean_wait
 from .inputs import ProfileFile, build_profile, check_grade, control_character, printable, read_yaml, validated
 from .merge_area import COVERAGE, LANES_COVERED, OutsideMethod, merge_area, passenger_car_flow
 from .merge_operations import TRUCK_EQUIVALENT
+from .output_files import Output, check_outputs, write_all
 from .profile import VerticalProfile
 from .report import csv_report, json_report, markdown, terminal
 from .results import AccelerationRun, GapFigures
@@ -249,28 +247,27 @@ def _accel(args: argparse.Namespace, out: Console, err: Console) -> int:
 def _check(args: argparse.Namespace, out: Console, err: Console) -> int:
     if not 0 <= args.monte_carlo <= 10_000_000:
         raise InputError("command line", "--monte-carlo", "must lie between 0 and 10,000,000 drivers")
+    asked = [Output(option, path) for option, path in (("--json", args.json), ("--markdown", args.markdown),
+                                                        ("--html", args.html)) if path is not None]  # fmt: skip
+    check_outputs(asked, [args.site])
     assessment = assess(load_site(args.site), monte_carlo=args.monte_carlo)
-    documents: list[tuple[str, str]] = []
-    if args.json is not None:
-        documents.append((args.json, json_report.dumps(json_report.site_json(assessment))))
     exception = None
-    if args.exception or assessment.verdict == "short":
-        if args.html is not None or args.markdown is not None:
-            exception = design_exception(assessment)
-    if args.markdown is not None:
-        documents.append((args.markdown, markdown.site_markdown(assessment, args.units, exception)))
-    if args.html is not None:
+    if (args.exception or assessment.verdict == "short") and (args.html is not None or args.markdown is not None):
+        exception = design_exception(assessment)
+
+    def render(option: str) -> str:
+        if option == "--json":
+            return json_report.dumps(json_report.site_json(assessment))
+        if option == "--markdown":
+            return markdown.site_markdown(assessment, args.units, exception)
         from .report import html  # matplotlib is slow to import: only when a page is asked for
 
-        documents.append((args.html, html.site_html(assessment, args.units, exception)))
-    files = [(path, text) for path, text in documents if path != "-"]
-    for path, _ in files:
-        if not Path(path).resolve().parent.is_dir():
-            raise InputError("command line", path, "the folder for this output file does not exist")
-    for path, text in files:
-        write_whole(path, text)
+        return html.site_html(assessment, args.units, exception)
+
+    documents = [Output(o.option, o.path, render(o.option)) for o in asked]
+    write_all(documents, [args.site])
     if args.json == "-":
-        sys.stdout.write(documents[0][1])
+        sys.stdout.write(documents[0].text)
     else:
         out.print(terminal.site_view(assessment, args.units))
     return EXIT_OK if assessment.verdict == "meets" else EXIT_SHORT
@@ -402,14 +399,9 @@ def _queue(args: argparse.Namespace, out: Console, err: Console) -> int:
 def _batch(args: argparse.Namespace, out: Console, err: Console) -> int:
     if args.workers is not None and not 1 <= args.workers <= 64:
         raise InputError("command line", "--workers", "must lie between 1 and 64")
-    outputs = [
-        (flag, path)
-        for flag, path in (("--json", args.json), ("--csv", args.csv), ("--markdown", args.markdown))
-        if path
-    ]
-    for flag, path in outputs:
-        if not Path(path).resolve().parent.is_dir():
-            raise InputError("command line", flag, f"the folder for {path} does not exist")
+    asked = [Output(option, path) for option, path in (("--json", args.json), ("--csv", args.csv),
+                                                        ("--markdown", args.markdown)) if path]  # fmt: skip
+    check_outputs(asked, source_files(args.input))
     entries = read_entries(args.input)
     if err.is_terminal:  # a progress bar on a terminal only; nothing extra when piped
         with Progress(*Progress.get_default_columns(), MofNCompleteColumn(), console=err, transient=True) as progress:
@@ -419,13 +411,12 @@ def _batch(args: argparse.Namespace, out: Console, err: Console) -> int:
         results = assess_all(entries, workers=args.workers)
     results = ranked(results)
     summary = summarize(results)
-    documents = {
+    render = {
         "--json": lambda: json_report.dumps(json_report.batch_json(results, summary)),
         "--csv": lambda: csv_report.batch_csv(results, args.units),
         "--markdown": lambda: markdown.batch_markdown(results, summary, args.units),
     }
-    for flag, path in outputs:
-        write_whole(path, documents[flag]())
+    write_all([Output(o.option, o.path, render[o.option]()) for o in asked], source_files(args.input))
     out.print(terminal.batch_view(results, summary, args.units))
     if summary.unreadable:
         return EXIT_INPUT
@@ -474,28 +465,3 @@ def load_profile_file(path: str) -> tuple[VerticalProfile, float]:
     if data.elevation is not None:
         elevation = parse_quantity(data.elevation, "length", source=path, field="elevation")
     return build_profile(data.profile, path, "profile"), elevation
-
-
-def write_whole(path: str, text: str) -> None:
-    """Write a file whole or not at all (temporary file, then an atomic rename)."""
-    target = Path(path)
-    directory = target.parent if str(target.parent) else Path(".")
-    if target.is_dir():
-        raise InputError("command line", path, "is a folder: give a file name for this output")
-    try:
-        handle, temporary = tempfile.mkstemp(dir=directory, prefix=f".{target.name}.", suffix=".part")
-    except OSError as error:
-        raise InputError("command line", path, f"cannot write this output: {error.strerror}") from None
-    try:
-        with os.fdopen(handle, "w", encoding="utf-8") as stream:
-            stream.write(text)
-        umask = os.umask(0)
-        os.umask(umask)
-        os.chmod(temporary, 0o666 & ~umask)  # the permissions of a file written the ordinary way
-        os.replace(temporary, target)
-    except OSError as error:
-        Path(temporary).unlink(missing_ok=True)
-        raise InputError("command line", path, f"cannot write this output: {error.strerror}") from None
-    except BaseException:
-        Path(temporary).unlink(missing_ok=True)
-        raise

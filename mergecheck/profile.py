@@ -14,12 +14,14 @@ Grades are fractions (0.04 for a 4 % upgrade, negative downgrade).
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
 FloatArray = NDArray[np.float64]
+IndexArray = NDArray[np.intp]
 
 
 @dataclass(frozen=True, slots=True)
@@ -103,10 +105,11 @@ class VerticalProfile:
         .. math:: G(x) = G_0 + \\sum_i \\Delta G_i \\, r_i(x)
 
         where r_i is a unit step at the PVI for an abrupt change, or the ramp
-        clip((x - BVC_i) / L_i, 0, 1) over a vertical curve.
+        clip((x - BVC_i) / L_i, 0, 1) over a vertical curve: piecewise linear
+        in x, evaluated from the segment that holds x (see :class:`ProfileStack`).
         """
         x = np.asarray(station, dtype=float)
-        return grade_at(x[..., None], self.initial_grade, *self._columns())
+        return ProfileStack.of([self]).grade(x.ravel(), np.zeros(x.size, dtype=np.intp)).reshape(x.shape)
 
     def elevation(self, station: ArrayLike) -> FloatArray:
         """Elevation relative to station 0 (integral of the grade). [m]
@@ -115,102 +118,136 @@ class VerticalProfile:
         of the vertical curve) and linear beyond it.
         """
         x = np.asarray(station, dtype=float)
-        return elevation_at(x[..., None], self.initial_grade, *self._columns())
-
-    def _columns(self) -> tuple[FloatArray, FloatArray, FloatArray]:
-        """PVI stations, grade steps and curve lengths as arrays (one column per change)."""
-        grades = [self.initial_grade] + [c.grade for c in self.changes]
-        return (
-            np.array([c.station for c in self.changes], dtype=float),
-            np.diff(np.asarray(grades, dtype=float)),
-            np.array([c.curve_length for c in self.changes], dtype=float),
-        )
+        return ProfileStack.of([self]).elevation(x.ravel(), np.zeros(x.size, dtype=np.intp)).reshape(x.shape)
 
 
 @dataclass(frozen=True, slots=True)
 class ProfileStack:
     """Many profiles side by side, one row each, for integrating many vehicles at once.
 
-    Rows are padded with empty changes (no grade step, far away) to a common
-    number of columns. ``grade`` and ``elevation`` take one station per row
-    and use the same formulas as :class:`VerticalProfile`.
+    Each row is cut at its knots (abrupt grade changes, and the BVC and EVC of
+    each vertical curve) into segments on which the grade is linear, so that
+    over segment j, from its reference station x_j,
+
+    .. math:: G(x) = g_j + s_j (x - x_j), \\quad
+              z(x) = z_j + g_j (x - x_j) + s_j (x - x_j)^2 / 2
+
+    (z the elevation relative to station 0: the parabola of an equal-tangent
+    vertical curve, a straight grade elsewhere). The segment that holds x is
+    found by binary search, so one evaluation costs O(log K) for K knots and a
+    surveyed profile of thousands of points integrates in time linear in its
+    points. Rows are stored one after another (no padding), so one long
+    profile does not widen the others.
     """
 
-    initial_grade: FloatArray
-    """(n,) [fraction]"""
-    station: FloatArray
-    """(n, c) PVI stations. [m]"""
-    step: FloatArray
-    """(n, c) grade change at each PVI. [fraction]"""
-    curve_length: FloatArray
-    """(n, c) [m]"""
+    knot: FloatArray
+    """(K,) the knots of every row in turn, ascending within a row. [m]"""
+    first_knot: NDArray[np.intp]
+    """(n + 1,) offsets of each row's knots in ``knot``."""
+    reference: FloatArray
+    """(K + n,) reference station x_j of each segment, the row's segments in turn (one more than its knots). [m]"""
+    segment_grade: FloatArray
+    """(K + n,) grade g_j at the reference station. [fraction]"""
+    slope: FloatArray
+    """(K + n,) rate of change of grade s_j over the segment. [1/m]"""
+    height: FloatArray
+    """(K + n,) elevation z_j at the reference station, relative to station 0. [m]"""
+    last_change_end: FloatArray
+    """(n,) station beyond which each row's grade is constant (-inf for a single grade). [m]"""
+    final_grade: FloatArray
+    """(n,) grade after each row's last change. [fraction]"""
+    _key: FloatArray
+    """(K,) the knots laid end to end on one ascending axis, row r shifted by r times ``_span``."""
+    _low: float
+    _span: float
 
     @classmethod
-    def of(cls, profiles: list[VerticalProfile]) -> ProfileStack:
-        width = max((len(p.changes) for p in profiles), default=0) + 1  # at least one padding column
-        station = np.full((len(profiles), width), _FAR)
-        step = np.zeros((len(profiles), width))
-        length = np.zeros((len(profiles), width))
-        for row, profile in enumerate(profiles):
-            count = len(profile.changes)
-            station[row, :count], step[row, :count], length[row, :count] = profile._columns()
-        initial = np.array([p.initial_grade for p in profiles], dtype=float)
-        return cls(initial, station, step, length)
+    def of(cls, profiles: Sequence[VerticalProfile]) -> ProfileStack:
+        knots: list[float] = []
+        first = [0]
+        segments: list[tuple[float, float, float, float]] = []  # (x_j, g_j, s_j, z_j)
+        for profile in profiles:
+            x, g, s, z = 0.0, profile.initial_grade, 0.0, 0.0  # the segment before the first knot
+            segments.append((x, g, s, z))
+            for station, after, rate in _events(profile):
+                z, g = z + g * (station - x) + s * (station - x) ** 2 / 2, g + s * (station - x)
+                x, s = station, rate
+                g = g if after is None else after
+                knots.append(x)
+                segments.append((x, g, s, z))
+            first.append(len(knots))
+        reference, grade, slope, height = np.array(segments, dtype=float).reshape(-1, 4).T
+        knot = np.asarray(knots, dtype=float)
+        low = float(min(knot.min(initial=0.0), 0.0)) - 1.0
+        span = float(max(knot.max(initial=0.0), 0.0)) - low + 2.0
+        rows = np.repeat(np.arange(len(profiles)), np.diff(first))
+        return cls(
+            knot=knot,
+            first_knot=np.asarray(first, dtype=np.intp),
+            reference=reference,
+            segment_grade=grade,
+            slope=slope,
+            height=height,
+            last_change_end=np.array([p.last_change_end for p in profiles], dtype=float),
+            final_grade=np.array([p.final_grade for p in profiles], dtype=float),
+            _key=(knot - low) + rows * span,
+            _low=low,
+            _span=span,
+        )
 
-    def take(self, rows: NDArray[np.intp]) -> ProfileStack:
-        return ProfileStack(self.initial_grade[rows], self.station[rows], self.step[rows], self.curve_length[rows])
+    def _count(self, station: FloatArray, rows: IndexArray) -> IndexArray:
+        """Number of the row's knots at or before each station (the row's segment index)."""
+        start, stop = self.first_knot[rows], self.first_knot[rows + 1]
+        if not self.knot.size:
+            return np.zeros(station.shape, dtype=np.intp)
+        shifted = (np.clip(station, self._low, self._low + self._span - 1.0) - self._low) + rows * self._span
+        count = np.searchsorted(self._key, shifted, side="right") - start
+        count = np.clip(count, 0, stop - start)
+        # the shift rounds: settle the last ulp against the knots themselves, so x at a knot is past it
+        while True:
+            back = (count > 0) & (self.knot[np.maximum(start + count - 1, 0)] > station)
+            ahead = (start + count < stop) & (self.knot[np.minimum(start + count, self.knot.size - 1)] <= station)
+            if not (back.any() or ahead.any()):
+                return np.asarray(count, dtype=np.intp)
+            count = count - back + ahead
 
-    def grade(self, station: FloatArray) -> FloatArray:
-        """Grade of each row at its own station. [fraction]"""
-        return grade_at(station[:, None], self.initial_grade, self.station, self.step, self.curve_length)
+    def _segment(self, station: FloatArray, rows: IndexArray | None) -> tuple[IndexArray, FloatArray]:
+        rows = np.arange(station.size, dtype=np.intp) if rows is None else rows
+        index = self.first_knot[rows] + rows + self._count(station, rows)
+        return index, station - self.reference[index]
 
-    def elevation(self, station: FloatArray) -> FloatArray:
+    def grade(self, station: FloatArray, rows: IndexArray | None = None) -> FloatArray:
+        """Grade of each row (``rows``, default one station per row in order) at its station. [fraction]"""
+        j, dx = self._segment(np.asarray(station, dtype=float), rows)
+        return np.asarray(self.segment_grade[j] + self.slope[j] * dx, dtype=np.float64)
+
+    def elevation(self, station: FloatArray, rows: IndexArray | None = None) -> FloatArray:
         """Elevation of each row at its own station, relative to station 0. [m]"""
-        return elevation_at(station[:, None], self.initial_grade, self.station, self.step, self.curve_length)
+        j, dx = self._segment(np.asarray(station, dtype=float), rows)
+        return np.asarray(self.height[j] + (self.segment_grade[j] + 0.5 * self.slope[j] * dx) * dx, dtype=np.float64)
 
-    @property
-    def breakpoints(self) -> FloatArray:
-        """(n, 2c) stations where each row's grade or its rate of change is not smooth (padding far away). [m]"""
-        return np.concatenate([self.station - self.curve_length / 2, self.station + self.curve_length / 2], axis=1)
-
-    @property
-    def last_change_end(self) -> FloatArray:
-        """(n,) station beyond which each row's grade is constant. [m]"""
-        ends = np.where(self.station < _FAR, self.station + self.curve_length / 2, -np.inf)
-        return np.asarray(np.max(ends, axis=1, initial=-np.inf), dtype=float)
-
-    @property
-    def final_grade(self) -> FloatArray:
-        """(n,) grade after each row's last change. [fraction]"""
-        return np.asarray(self.initial_grade + self.step.sum(axis=1), dtype=float)
+    def next_knot(self, station: FloatArray, rows: IndexArray) -> FloatArray:
+        """First knot of each row after its station (``_FAR`` when none is left). [m]"""
+        index = self.first_knot[rows] + self._count(station, rows)
+        ahead = index < self.first_knot[rows + 1]
+        following = np.full(station.shape, _FAR)
+        following[ahead] = self.knot[index[ahead]]
+        return following
 
 
-_FAR = 1e12  # m: station of the padding changes of a ProfileStack
+def _events(profile: VerticalProfile) -> list[tuple[float, float | None, float]]:
+    """Knots of one profile in station order: (station, grade after it or None if continuous, slope after it)."""
+    events: list[tuple[float, float | None, float]] = []
+    before = profile.initial_grade
+    for change in profile.changes:
+        half = change.curve_length / 2
+        if change.curve_length > 0:
+            events.append((change.station - half, None, (change.grade - before) / change.curve_length))
+            events.append((change.station + half, change.grade, 0.0))
+        else:
+            events.append((change.station, change.grade, 0.0))
+        before = change.grade
+    return events
 
 
-def _ramp(x: FloatArray, station: FloatArray, length: FloatArray) -> FloatArray:
-    """0 before the change, 1 after; linear over a vertical curve of length L centred on the PVI."""
-    over_curve = np.clip((x - station + length / 2) / np.where(length > 0, length, 1.0), 0.0, 1.0)
-    return np.where(length > 0, over_curve, (x >= station).astype(float))
-
-
-def _ramp_integral(x: FloatArray, station: FloatArray, length: FloatArray) -> FloatArray:
-    """Integral of the ramp from -infinity to x."""
-    start = station - length / 2
-    inside = np.clip(x - start, 0.0, length)
-    return np.asarray(inside**2 / (2 * np.where(length > 0, length, 1.0)) + np.maximum(x - start - length, 0.0))
-
-
-def grade_at(
-    x: FloatArray, initial: float | FloatArray, station: FloatArray, step: FloatArray, length: FloatArray
-) -> FloatArray:
-    """G(x) = G_0 + sum_i dG_i r_i(x); changes along the last axis, x broadcast against them. [fraction]"""
-    return np.asarray(np.add(initial, np.sum(step * _ramp(x, station, length), axis=-1)), dtype=np.float64)
-
-
-def elevation_at(
-    x: FloatArray, initial: float | FloatArray, station: FloatArray, step: FloatArray, length: FloatArray
-) -> FloatArray:
-    """Integral of G from 0 to x, same layout as :func:`grade_at`. [m]"""
-    rise = step * (_ramp_integral(x, station, length) - _ramp_integral(np.zeros_like(x), station, length))
-    return np.asarray(np.multiply(initial, x[..., 0]) + np.sum(rise, axis=-1), dtype=np.float64)
+_FAR = 1e12  # m: reported as the next knot of a row that has none left

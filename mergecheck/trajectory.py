@@ -361,7 +361,6 @@ class _State:
         n = len(runs)
         self.models = models
         self.profiles = ProfileStack.of([r.profile for r in runs])
-        self.breaks = self.profiles.breakpoints
         self.last_change_end = self.profiles.last_change_end
         self.final_grade = self.profiles.final_grade
         self.base = np.array([r.elevation for r in runs], dtype=float)
@@ -393,13 +392,12 @@ class _State:
     def _update_live(self) -> None:
         self.live = np.flatnonzero(~self.done)
         self.live_models = self.models.take(self.live)
-        self.live_profiles = self.profiles.take(self.live)
 
     def _rhs(self, x: FloatArray, y: FloatArray, edge: FloatArray) -> FloatArray:
         """du/dx and dt/dx of the live columns, Eq. (1); the grade is read left of ``edge`` (the segment end)."""
         v = np.sqrt(np.maximum(2.0 * y[0], 0.0))
-        grade = self.live_profiles.grade(np.minimum(x, edge))
-        height = self.base[self.live] + self.live_profiles.elevation(x)
+        grade = self.profiles.grade(np.minimum(x, edge), self.live)
+        height = self.base[self.live] + self.profiles.elevation(x, self.live)
         return np.stack([self.live_models.acceleration(v, grade, height), 1.0 / np.maximum(v, 1e-12)])
 
     def _standing_start(self) -> None:
@@ -407,10 +405,9 @@ class _State:
         slow = np.flatnonzero((self.v0 < _STALL_SPEED) & ~self.done)
         if not slow.size:
             return
-        profiles = self.profiles.take(slow)
         at = self.start[slow]
         a0 = self.models.take(slow).acceleration(
-            self.v0[slow], profiles.grade(at), self.base[slow] + profiles.elevation(at)
+            self.v0[slow], self.profiles.grade(at, slow), self.base[slow] + self.profiles.elevation(at, slow)
         )
         stuck = slow[a0 <= 0]  # cannot move off: crawl speed zero on this grade
         self.done[stuck], self.stalled[stuck], self.crawl[stuck] = True, True, 0.0
@@ -430,8 +427,7 @@ class _State:
 
     def _segment_edges(self, x: FloatArray) -> tuple[FloatArray, FloatArray]:
         """Next grade breakpoint of each live column, and a point just before it."""
-        breaks = self.breaks[self.live]
-        following = np.min(np.where(breaks > x[:, None] + 1e-9, breaks, np.inf), axis=1)  # padding keeps it finite
+        following = self.profiles.next_knot(x + 1e-9, self.live)
         return following, following - 1e-9 * np.maximum(1.0, np.abs(following))
 
     def _initial_step(self) -> FloatArray:
@@ -514,7 +510,7 @@ class _State:
         again = check & (np.isnan(self.crawl_checked_at[cols]) | (x - self.crawl_checked_at[cols] >= _RECHECK))
         if again.any():
             c = cols[again]
-            height = self.base[c] + self.profiles.take(c).elevation(x[again])
+            height = self.base[c] + self.profiles.elevation(x[again], c)
             settle = equilibrium_speeds(self.models.take(c), self.final_grade[c], height, v[again])
             short = np.where(self.slowing[c], settle > self.target[c], settle < self.target[c])
             self.crawl[c] = np.where(short, settle, np.nan)

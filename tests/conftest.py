@@ -2,8 +2,11 @@
 
 from __future__ import annotations
 
+import contextlib
 import copy
+import io
 import json
+import os
 import subprocess
 import sys
 from dataclasses import dataclass
@@ -65,6 +68,29 @@ class Run:
 
 
 def run_cli(*args: str | Path, cwd: Path | None = None) -> Run:
+    """Run the command line in this process, as ``mergecheck ARGS`` would run, capturing its output.
+
+    The working directory is tests/ (or ``cwd``) for the call, as for :func:`run_cli_process`. In-process
+    runs cost milliseconds instead of a Python start each; the real program is still run in a subprocess
+    by the smoke tests (see :func:`run_cli_process`).
+    """
+    from mergecheck.cli import main
+
+    out, err = io.StringIO(), io.StringIO()
+    here = os.getcwd()
+    os.chdir(cwd or Path(__file__).parent)
+    try:
+        with contextlib.redirect_stdout(out), contextlib.redirect_stderr(err):
+            try:
+                code = main([str(a) for a in args])
+            except SystemExit as done:  # argparse's usage errors and --help
+                code = done.code if isinstance(done.code, int) else 2
+    finally:
+        os.chdir(here)
+    return Run(code, out.getvalue(), err.getvalue())
+
+
+def run_cli_process(*args: str | Path, cwd: Path | None = None) -> Run:
     """Run ``python -m mergecheck`` as a user would, in a subprocess.
 
     The working directory defaults to tests/, which holds no package, so the
@@ -82,8 +108,14 @@ def run_cli(*args: str | Path, cwd: Path | None = None) -> Run:
 
 @pytest.fixture(scope="session")
 def cli() -> Any:
-    """The command-line runner (see :func:`run_cli`)."""
+    """The command-line runner, in process (see :func:`run_cli`)."""
     return run_cli
+
+
+@pytest.fixture(scope="session")
+def cli_process() -> Any:
+    """The command-line runner in a real subprocess (see :func:`run_cli_process`), for smoke tests."""
+    return run_cli_process
 
 
 @pytest.fixture(scope="session")

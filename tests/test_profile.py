@@ -6,7 +6,7 @@ import numpy as np
 import pytest
 from scipy.integrate import quad
 
-from mergecheck.profile import GradeChange, VerticalProfile
+from mergecheck.profile import GradeChange, ProfileStack, VerticalProfile
 
 PROFILE = VerticalProfile(0.03, (GradeChange(250.0, -0.01, 120.0), GradeChange(600.0, 0.05, 0.0)))
 
@@ -36,3 +36,51 @@ def test_parabola_offset_at_pvi() -> None:
 def test_overlapping_curves_are_refused() -> None:
     with pytest.raises(ValueError, match="must not overlap"):
         VerticalProfile(0.0, (GradeChange(100.0, 0.02, 100.0), GradeChange(140.0, 0.0, 100.0)))
+
+
+def _sum_of_ramps(profile: VerticalProfile, x: np.ndarray) -> np.ndarray:
+    """G(x) = G0 + sum dG_i r_i(x), the defining sum written out term by term (the reference for the tables)."""
+    grade = np.full(x.shape, profile.initial_grade)
+    before = profile.initial_grade
+    for change in profile.changes:
+        if change.curve_length > 0:
+            ramp = np.clip((x - change.station + change.curve_length / 2) / change.curve_length, 0.0, 1.0)
+        else:
+            ramp = (x >= change.station).astype(float)
+        grade += (change.grade - before) * ramp
+        before = change.grade
+    return grade
+
+
+def _surveyed(points: int, seed: int) -> VerticalProfile:
+    """A dense profile as a survey gives it: a grade every 2 m, a vertical curve at every third PVI."""
+    rng = np.random.default_rng(seed)
+    changes = tuple(
+        GradeChange(2.0 * i, float(rng.uniform(-0.05, 0.06)), 1.0 if i % 3 == 0 else 0.0) for i in range(1, points)
+    )
+    return VerticalProfile(float(rng.uniform(-0.03, 0.03)), changes)
+
+
+def test_dense_profile_matches_the_defining_sum_everywhere_and_at_every_knot() -> None:
+    """Segment tables found by binary search give the sum of ramps to 1e-12, at random stations and exactly at
+    each PVI (an abrupt change counts from its station on), and elevations integrate the grade (trapezoid rule
+    on the piecewise-linear grade is exact)."""
+    profile = _surveyed(2000, 7)
+    rng = np.random.default_rng(3)
+    stations = np.concatenate([rng.uniform(-10.0, 4100.0, 5000), [c.station for c in profile.changes]])
+    assert np.allclose(profile.grade(stations), _sum_of_ramps(profile, stations), rtol=0, atol=1e-12)
+    fine = np.sort(np.concatenate([np.linspace(0.0, 4000.0, 40_001), profile.breakpoints]))
+    left = np.concatenate([[profile.initial_grade], _sum_of_ramps(profile, fine[1:] - 1e-9)])
+    trapezoid = np.concatenate([[0.0], np.cumsum(np.diff(fine) * (_sum_of_ramps(profile, fine)[:-1] + left[1:]) / 2)])
+    assert np.allclose(profile.elevation(fine), trapezoid, rtol=0, atol=1e-8)
+
+
+def test_stacked_rows_of_different_lengths_each_give_their_own_profile() -> None:
+    """Rows stored end to end (a long surveyed row beside short ones) read only their own knots."""
+    rows = [PROFILE, _surveyed(500, 1), VerticalProfile.constant(-0.02), _surveyed(40, 2)]
+    stack = ProfileStack.of(rows)
+    x = np.array([305.0, 311.0, 50.0, 79.0])
+    index = np.arange(4, dtype=np.intp)
+    assert np.array_equal(stack.grade(x, index), [float(p.grade(xi)) for p, xi in zip(rows, x, strict=True)])
+    assert np.allclose(stack.elevation(x, index), [float(p.elevation(xi)) for p, xi in zip(rows, x, strict=True)])
+    assert stack.next_knot(np.array([0.0, 0.0, 0.0, 500.0]), index).tolist() == [190.0, 2.0, 1e12, 1e12]
