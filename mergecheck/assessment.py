@@ -29,6 +29,7 @@ value; both are always reported.
 
 from __future__ import annotations
 
+from collections.abc import Callable
 from dataclasses import dataclass, replace
 from typing import Literal
 
@@ -250,6 +251,7 @@ def assess_vehicle(
     merge: MergeReliability,
     monte_carlo: int = 0,
     seed: int = 0,
+    progress: Callable[[int], None] | None = None,
 ) -> VehicleAssessment:
     """Read one design vehicle's trajectory and merge probability against the lane.
 
@@ -270,6 +272,7 @@ def assess_vehicle(
             critical_gap=entry.critical_gap,
             count=monte_carlo,
             seed=seed,
+            progress=progress,
         )
     needed = (
         None
@@ -325,16 +328,25 @@ def governing_vehicle(results: tuple[VehicleAssessment, ...]) -> VehicleAssessme
     return max(results, key=need)
 
 
-def assess(site: Site, *, monte_carlo: int = 0, seed: int = 20261202) -> SiteAssessment:
+def assess(
+    site: Site, *, monte_carlo: int = 0, seed: int = 20261202, progress: Callable[[int], None] | None = None
+) -> SiteAssessment:
     """Assess every design vehicle at a site and compare with the policy table.
 
     ``monte_carlo`` > 0 adds a simulated check of each vehicle's merge
-    probabilities with that many drivers (seeded).
+    probabilities with that many drivers (seeded); ``progress`` is called with
+    the number of drivers simulated as each batch of them is done.
     """
-    return assess_many([site], monte_carlo=monte_carlo, seed=seed)[0]
+    return assess_many([site], monte_carlo=monte_carlo, seed=seed, progress=progress)[0]
 
 
-def assess_many(sites: list[Site], *, monte_carlo: int = 0, seed: int = 20261202) -> list[SiteAssessment]:
+def assess_many(
+    sites: list[Site],
+    *,
+    monte_carlo: int = 0,
+    seed: int = 20261202,
+    progress: Callable[[int], None] | None = None,
+) -> list[SiteAssessment]:
     """Assess many sites; every trajectory of every site is integrated in one pass.
 
     A site's result does not depend on the other sites: each vehicle's
@@ -356,7 +368,9 @@ def assess_many(sites: list[Site], *, monte_carlo: int = 0, seed: int = 20261202
     for (k, entry), trajectory, v, merge in zip(entries, trajectories, speeds, merges, strict=True):
         order = len(vehicles[k])
         vehicles[k].append(
-            assess_vehicle(sites[k], entry, initial[k][0], trajectory, v[:3], merge, monte_carlo, seed + order)
+            assess_vehicle(
+                sites[k], entry, initial[k][0], trajectory, v[:3], merge, monte_carlo, seed + order, progress
+            )
         )
     return [
         _site_assessment(site, table, speed, basis, tuple(results))

@@ -250,7 +250,16 @@ def _check(args: argparse.Namespace, out: Console, err: Console) -> int:
     asked = [Output(option, path) for option, path in (("--json", args.json), ("--markdown", args.markdown),
                                                         ("--html", args.html)) if path is not None]  # fmt: skip
     check_outputs(asked, [args.site])
-    assessment = assess(load_site(args.site), monte_carlo=args.monte_carlo)
+    site = load_site(args.site)
+    if args.monte_carlo and err.is_terminal:  # the drivers simulated, with the time left; quiet when piped
+        columns = (*Progress.get_default_columns(), MofNCompleteColumn())
+        with Progress(*columns, console=err, transient=True) as progress:
+            task = progress.add_task("Simulating drivers", total=args.monte_carlo * len(site.vehicles))
+            assessment = assess(
+                site, monte_carlo=args.monte_carlo, progress=lambda count: progress.advance(task, count)
+            )
+    else:
+        assessment = assess(site, monte_carlo=args.monte_carlo)
     exception = None
     if (args.exception or assessment.verdict == "short") and (args.html is not None or args.markdown is not None):
         exception = design_exception(assessment)
