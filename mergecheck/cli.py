@@ -34,7 +34,7 @@ from .site import SiteInput, load_site
 from .sweep import parse_range, sweep
 from .trajectory import accelerate
 from .units import counts_passenger_cars, parse_quantity, show
-from .vehicles import load_bundled, load_vehicle
+from .vehicles import HIGHEST_SPEED, load_bundled, load_vehicle
 
 EXIT_OK, EXIT_SHORT, EXIT_INPUT, EXIT_INTERNAL = 0, 1, 2, 3
 """0 meets, 1 falls short, 2 bad input (nothing written), 3 an internal error (never a verdict)."""
@@ -222,8 +222,8 @@ def _accel(args: argparse.Namespace, out: Console, err: Console) -> int:
     initial = parse_quantity(args.initial, "speed", source="command line", field="--from")
     target = parse_quantity(args.target, "speed", source="command line", field="--to")
     for name, value in (("--from", initial), ("--to", target)):
-        if not 0 <= value <= 300 / 3.6:
-            raise InputError("command line", name, "a speed must lie between 0 and 300 km/h")
+        if not 0 <= value <= HIGHEST_SPEED:
+            raise InputError("command line", name, f"a speed must lie between 0 and {HIGHEST_SPEED * 3.6:g} km/h")
     elevation = 0.0
     if args.elevation is not None:
         elevation = parse_quantity(args.elevation, "length", source="command line", field="--elevation")

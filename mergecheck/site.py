@@ -507,11 +507,16 @@ def site_from_input(data: SiteInput, source: str) -> Site:
         raise InputError(source, "ramp.vehicles", f"shares must sum to 1, they sum to {total:g}")
     base_dir = Path(source).parent
     vehicles = []
+    listed: dict[str, str] = {}
     for ref, share in shares.items():
         field = f"ramp.vehicles.{ref}"
         if not 0 < share <= 1:
             raise InputError(source, field, "a share must be greater than 0 and at most 1")
         vehicle = load_vehicle(ref, relative_to=base_dir, source=source, field=field)
+        if vehicle.id in listed:
+            rule = f"the design vehicle '{vehicle.id}' is already listed as '{listed[vehicle.id]}': list each once"
+            raise InputError(source, field, rule)
+        listed[vehicle.id] = ref
         heavy = vehicle.category != "passenger-car"
         differential = heavy_differential if heavy else base_differential
         override = data.criteria.vehicles.get(ref)

@@ -89,6 +89,9 @@ LINEAR_DECREASING: dict[str, Spec] = {
 TABULATED: dict[str, Spec] = {
     "grade_response": Spec("ratio", 0.0, 1.5, 1.0),
 }
+HIGHEST_SPEED = 300 / 3.6
+"""Highest speed a design vehicle is asked about: a tabulated model's rows, the speeds of ``accel``. [m/s] The accelerations are
+bounded by the linear-decreasing model's largest alpha, either sign."""
 
 
 class _Entry(BaseModel):
@@ -337,9 +340,13 @@ def _tabulated(table: _Table, grade_response: float, source: str) -> Tabulated:
         factors.append(parse_quantity(f"1 {unit}", kind, source=source, field=f"table.{name}"))
     speeds = [row[0] * factors[0] for row in table.rows]
     accelerations = [row[1] * factors[1] for row in table.rows]
+    top_speed, most = HIGHEST_SPEED, LINEAR_DECREASING["alpha"].high
     for i, (v, a) in enumerate(zip(speeds, accelerations, strict=True)):
         if not (math.isfinite(v) and math.isfinite(a)) or v < 0:
             raise InputError(source, f"table.rows.{i}", "speed must be finite and not negative, acceleration finite")
+        if v > top_speed or abs(a) > most:
+            rule = f"speed must be at most {top_speed * 3.6:g} km/h and acceleration within +/- {most:g} m/s^2"
+            raise InputError(source, f"table.rows.{i}", rule)
         if i and v <= speeds[i - 1]:
             raise InputError(source, f"table.rows.{i}", "speeds must increase from row to row")
     return Tabulated(tuple(speeds), tuple(accelerations), grade_response)

@@ -287,3 +287,31 @@ def test_control_characters_are_refused_on_every_path(cli: Any, repo: Path, tmp_
     assert run.code == 2 and "row 2: holds the control character U+001B" in run.stderr
     run = cli("accel", "--vehicle", "bus\x1b[2J", "--from", "0 km/h", "--to", "50 km/h", "--grade", "0 %")
     assert run.code == 2 and "--vehicle: holds the control character U+001B" in run.stderr
+
+
+def test_one_vehicle_listed_twice_is_refused(cli: Any, repo: Path, tmp_path: Path) -> None:
+    """By id and again by the path of the same profile, its flow would count twice."""
+    site = yaml.safe_load((repo / "examples" / "willowmere-level.yaml").read_text())
+    copy = tmp_path / "truck.yaml"
+    copy.write_text((repo / "examples" / "vehicle-grain-truck.yaml").read_text())
+    site["ramp"]["vehicles"] = {"grain-truck.yaml": 0.2, "truck.yaml": 0.3, "passenger-car": 0.5}
+    site.get("criteria", {}).pop("vehicles", None)
+    site.get("gap_acceptance", {}).pop("critical_gaps", None)
+    (tmp_path / "grain-truck.yaml").write_text(copy.read_text())
+    path = tmp_path / "site.yaml"
+    path.write_text(yaml.safe_dump(site))
+    run = cli("check", path)
+    assert run.code == 2 and "ramp.vehicles.truck.yaml" in run.stderr, run.stderr
+    assert "'grain-truck' is already listed as 'grain-truck.yaml'" in run.stderr
+
+
+@pytest.mark.parametrize(("row", "rule"), [("[0, 60]", "within +/- 6 m/s^2"), ("[400, 0.1]", "at most 300 km/h")])
+def test_a_tabulated_vehicle_is_refused_outside_physical_ranges(
+    cli: Any, repo: Path, tmp_path: Path, row: str, rule: str
+) -> None:
+    profile = tmp_path / "truck.yaml"
+    text = (repo / "examples" / "vehicle-grain-truck.yaml").read_text()
+    profile.write_text(text.replace("- [100, 0.03]", "- [100, 0.03]\n    - " + row) if "400" in row
+                       else text.replace("- [0, 0.55]", "- " + row))  # fmt: skip
+    run = cli("accel", "--vehicle", profile, "--from", "0 km/h", "--to", "50 km/h", "--grade", "0 %")
+    assert run.code == 2 and "table.rows." in run.stderr and rule in run.stderr, run.stderr
