@@ -23,6 +23,7 @@ from .exception import design_exception
 from .figures import vehicle_figures
 from .headways import HEADWAY_MODELS, headway_model, mean_wait
 from .inputs import ProfileFile, build_profile, check_grade, control_character, printable, read_yaml, validated
+from .limits import CRITICAL_GAP, ELEVATION, MIN_HEADWAY, PROBE_FLOW, VEHICLE_SPEED
 from .merge_area import COVERAGE, LANES_COVERED, OutsideMethod, merge_area, passenger_car_flow
 from .merge_operations import TRUCK_EQUIVALENT
 from .output_files import Output, check_outputs, write_all
@@ -34,7 +35,7 @@ from .site import SiteInput, load_site
 from .sweep import parse_range, sweep
 from .trajectory import accelerate
 from .units import counts_passenger_cars, parse_quantity, show
-from .vehicles import HIGHEST_SPEED, load_bundled, load_vehicle
+from .vehicles import load_bundled, load_vehicle
 
 EXIT_OK, EXIT_SHORT, EXIT_INPUT, EXIT_INTERNAL = 0, 1, 2, 3
 """0 meets, 1 falls short, 2 bad input (nothing written), 3 an internal error (never a verdict)."""
@@ -218,12 +219,11 @@ def _vehicles(args: argparse.Namespace, out: Console, err: Console) -> int:
 
 
 def _accel(args: argparse.Namespace, out: Console, err: Console) -> int:
-    vehicle = load_vehicle(args.vehicle)
+    vehicle = load_vehicle(args.vehicle, source="command line", field="--vehicle")
     initial = parse_quantity(args.initial, "speed", source="command line", field="--from")
     target = parse_quantity(args.target, "speed", source="command line", field="--to")
     for name, value in (("--from", initial), ("--to", target)):
-        if not 0 <= value <= HIGHEST_SPEED:
-            raise InputError("command line", name, f"a speed must lie between 0 and {HIGHEST_SPEED * 3.6:g} km/h")
+        VEHICLE_SPEED.check(value, "command line", name)
     elevation = 0.0
     if args.elevation is not None:
         elevation = parse_quantity(args.elevation, "length", source="command line", field="--elevation")
@@ -233,10 +233,10 @@ def _accel(args: argparse.Namespace, out: Console, err: Console) -> int:
         profile, file_elevation = load_profile_file(args.profile)
         if args.elevation is None:
             elevation = file_elevation
-    if not -500.0 <= elevation <= 5000.0:
-        raise InputError(
-            "command line" if args.elevation else args.profile, "elevation", "must lie between -500 m and 5000 m"
-        )
+    if args.elevation is not None:
+        ELEVATION.check(elevation, "command line", "--elevation")
+    else:
+        ELEVATION.check(elevation, args.profile, "elevation")
     trajectory = accelerate(vehicle.model, profile, initial, target, elevation=elevation, slowing=target < initial)
     run = AccelerationRun(vehicle=vehicle, profile=profile, elevation=elevation, trajectory=trajectory)
     return _show(
@@ -285,15 +285,16 @@ def _check(args: argparse.Namespace, out: Console, err: Console) -> int:
 def _gaps(args: argparse.Namespace, out: Console, err: Console) -> int:
     flow = parse_quantity(args.flow, "flow", source="command line", field="--flow")
     gap = parse_quantity(args.critical_gap, "time", source="command line", field="--critical-gap")
-    if not 0 < flow <= 3000 / 3600:
-        raise InputError("command line", "--flow", "must be positive and at most 3000 veh/h")
-    if not 0 < gap <= 60:
-        raise InputError("command line", "--critical-gap", "must be positive and at most 60 s")
+    PROBE_FLOW.check(flow, "command line", "--flow")
+    if not gap > 0:
+        raise InputError("command line", "--critical-gap", "must be positive")
+    CRITICAL_GAP.check(gap, "command line", "--critical-gap")
     min_headway = None
     if args.model == "m3":
         min_headway = parse_quantity(args.min_headway, "time", source="command line", field="--min-headway")
-        if not 0 <= min_headway * flow < 1:
-            raise InputError("command line", "--min-headway", "must be at least 0 s and below the mean headway 1/q")
+        MIN_HEADWAY.check(min_headway, "command line", "--min-headway")
+        if min_headway * flow >= 1:
+            raise InputError("command line", "--min-headway", "must be below the mean headway 1/q")
         if args.free_fraction is not None and not 0.01 <= args.free_fraction <= 1:
             raise InputError("command line", "--free-fraction", "must lie between 0.01 and 1")
     model = headway_model(args.model, flow, min_headway=min_headway or 0.0, free_fraction=args.free_fraction)

@@ -193,13 +193,13 @@ def csv_rows(text: str, source: str) -> list[tuple[int, list[str]]]:
     :data:`CSV_LINE_LIMIT` is refused, each with an :class:`InputError` naming the row."""
     rows = []
     for number, line in enumerate(text.splitlines(), start=1):
+        found = control_character(line)  # in a comment too, as the YAML reader refuses them anywhere
+        if found is not None:
+            raise InputError(source, f"row {number}", f"holds the control character {found}")
         if not line.strip() or line.lstrip().startswith("#"):
             continue
         if len(line) > CSV_LINE_LIMIT:
             raise InputError(source, f"row {number}", f"the line is longer than {CSV_LINE_LIMIT:,} characters")
-        found = control_character(line)
-        if found is not None:
-            raise InputError(source, f"row {number}", f"holds the control character {found}")
         try:
             rows.append((number, next(csv.reader([line], strict=True))))
         except csv.Error:

@@ -22,6 +22,7 @@ from pydantic import BaseModel, ConfigDict, Field
 from .errors import InputError
 from .gap_acceptance import CriticalGap, default_critical_gaps
 from .inputs import GradePoint, build_profile, read_yaml, validated
+from .limits import CRITICAL_GAP, ELEVATION, LANE_FLOW, MAINLINE_SPEED, MIN_HEADWAY
 from .merge_behaviour import MergeBehaviour
 from .policy import BUNDLED_POLICIES, load_policy, running_speed_for
 from .profile import VerticalProfile
@@ -452,18 +453,17 @@ def site_from_input(data: SiteInput, source: str) -> Site:
 
     design = q(data.mainline.design_speed, "speed", "mainline.design_speed")
     base_dir = Path(source).parent
-    policy_file, policy_choice = _policy_choice(data.policy, data.mainline.design_speed, base_dir)
+    policy_file, policy_choice = _policy_choice(data.policy, data.mainline.design_speed, base_dir, source)
     if data.mainline.operating_speed is None:
         operating, operating_basis = _default_operating_speed(design, policy_file)
     else:
         operating = q(data.mainline.operating_speed, "speed", "mainline.operating_speed")
         operating_basis = "site file"
     for field, value in (("mainline.design_speed", design), ("mainline.operating_speed", operating)):
-        if not 40 / 3.6 <= value <= 160 / 3.6:
-            raise InputError(source, field, "must lie between 40 and 160 km/h for a freeway or expressway merge")
+        if not MAINLINE_SPEED.holds(value):
+            raise InputError(source, field, f"{MAINLINE_SPEED.rule} for a freeway or expressway merge")
     adjacent = q(data.mainline.adjacent_lane_flow, "flow", "mainline.adjacent_lane_flow")
-    if not 0 <= adjacent <= 3000 / 3600:
-        raise InputError(source, "mainline.adjacent_lane_flow", "must lie between 0 and 3000 veh/h")
+    LANE_FLOW.check(adjacent, source, "mainline.adjacent_lane_flow")
 
     controlling: float | None = None
     if data.ramp.controlling_speed.strip().lower() != "stop":
@@ -484,8 +484,7 @@ def site_from_input(data: SiteInput, source: str) -> Site:
         if controlling is None and initial != 0:
             raise InputError(source, "ramp.initial_speed", "a ramp that starts from a stop has an initial speed of 0")
     ramp_flow = q(data.ramp.flow, "flow", "ramp.flow")
-    if not 0 <= ramp_flow <= 3000 / 3600:
-        raise InputError(source, "ramp.flow", "must lie between 0 and 3000 veh/h")
+    LANE_FLOW.check(ramp_flow, source, "ramp.flow")
 
     base_differential = q(data.criteria.merge_speed_differential, "speed", "criteria.merge_speed_differential")
     heavy_differential = q(
@@ -558,8 +557,7 @@ def site_from_input(data: SiteInput, source: str) -> Site:
             raise InputError(source, f"geometry.{name}", f"{rule} of at most 5000 m")
         lengths[name] = value
     elevation = 0.0 if g.elevation is None else q(g.elevation, "length", "geometry.elevation")
-    if not -500 <= elevation <= 5000:
-        raise InputError(source, "geometry.elevation", "must lie between -500 m and 5000 m")
+    ELEVATION.check(elevation, source, "geometry.elevation")
     profile = build_profile(g.profile, source, "geometry.profile")
     path_end = lengths["curve_end_to_convergence"] + lengths["lane_length"] + lengths["taper_length"]
     for i, change in enumerate(profile.changes, start=1):
@@ -611,9 +609,7 @@ def _critical_gaps(
         if text is None:
             return fallback
         value = parse_quantity(text, "time", source=source, field=f"{field}.{name}")
-        if not 0 <= value <= 60:
-            raise InputError(source, f"{field}.{name}", "must lie between 0 and 60 s")
-        return value
+        return CRITICAL_GAP.check(value, source, f"{field}.{name}")
 
     mean = seconds(given.mean, "mean", 0.0)
     sd = seconds(given.sd, "sd", 0.0)
@@ -632,11 +628,11 @@ def _gap_settings(settings: GapAcceptanceInput, operating: float, adjacent: floa
     def q(text: str, kind: str, name: str) -> float:
         return parse_quantity(text, kind, source=source, field=f"gap_acceptance.{name}")
 
-    min_headway = q(settings.min_headway, "time", "min_headway")
-    if not 0 <= min_headway * adjacent < 1 or min_headway > 5:
-        raise InputError(
-            source, "gap_acceptance.min_headway", "must be at least 0 s and below the mean headway of the adjacent lane"
-        )
+    min_headway = MIN_HEADWAY.check(
+        q(settings.min_headway, "time", "min_headway"), source, "gap_acceptance.min_headway"
+    )
+    if min_headway * adjacent >= 1:
+        raise InputError(source, "gap_acceptance.min_headway", "must be below the mean headway of the adjacent lane")
     search = q(settings.search_speed, "speed", "search_speed")
     if not 0 < search <= 50 / 3.6:
         raise InputError(source, "gap_acceptance.search_speed", "must be positive and at most 50 km/h")
@@ -757,7 +753,7 @@ def _default_operating_speed(design: float, policy_file: str) -> tuple[float, st
     )
 
 
-def _policy_choice(policy: str | None, design_speed: str, base_dir: Path) -> tuple[str, str]:
+def _policy_choice(policy: str | None, design_speed: str, base_dir: Path, source: str) -> tuple[str, str]:
     """The policy table a site uses and why: 'none', a bundled table by name, or a file path (relative to the
     site file). Omitted, the bundled table in the unit system the design speed is written in, so that a US
     customary design gets the US customary table and a metric design the metric one (the two were developed
@@ -770,4 +766,9 @@ def _policy_choice(policy: str | None, design_speed: str, base_dir: Path) -> tup
     if named == "none" or named in BUNDLED_POLICIES:
         return named, "named in the site file"
     path = Path(policy)
-    return str(path if path.is_absolute() else base_dir / path), "named in the site file"
+    path = path if path.is_absolute() else base_dir / path
+    if not path.is_file():
+        choices = ", ".join(("none", *sorted(BUNDLED_POLICIES)))
+        rule = f"names no policy table: give one of {choices}, or the path of a table file (no file {policy} was found)"
+        raise InputError(source, "policy", rule)
+    return str(path), "named in the site file"

@@ -19,6 +19,7 @@ from .acceleration import PowerLimited
 from .assessment import SiteAssessment, assess_many
 from .errors import InputError
 from .inputs import MAX_GRADE
+from .limits import LANE_FLOW, Limit
 from .profile import VerticalProfile
 from .site import Site, SiteVehicle
 from .units import parse_quantity
@@ -30,13 +31,12 @@ FIELDS: dict[str, str] = {
     "adjacent_lane_flow": "flow",
     "weight_to_power": "weight_to_power",
 }
-RANGES: dict[str, tuple[float, float, str]] = {
-    "lane_length": (1.0, 5000.0, "between 1 and 5000 m, as geometry.lane_length"),
-    "grade": (-MAX_GRADE, MAX_GRADE, f"between -{MAX_GRADE:.0%} and +{MAX_GRADE:.0%}, as a profile grade"),
-    "adjacent_lane_flow": (0.0, 3000 / 3600, "between 0 and 3000 veh/h, as mainline.adjacent_lane_flow"),
-    "weight_to_power": (POWER_LIMITED["weight_to_power"].low, POWER_LIMITED["weight_to_power"].high,
-                        f"between {POWER_LIMITED['weight_to_power'].low * 1000:g} and"
-                        f" {POWER_LIMITED['weight_to_power'].high * 1000:g} kg/kW, as a vehicle profile"),
+RANGES: dict[str, tuple[Limit, str]] = {
+    "lane_length": (Limit("length", 1.0, 5000.0), "geometry.lane_length"),
+    "grade": (Limit("grade", -MAX_GRADE, MAX_GRADE), "a profile grade"),
+    "adjacent_lane_flow": (LANE_FLOW, "mainline.adjacent_lane_flow"),
+    "weight_to_power": (Limit("weight_to_power", POWER_LIMITED["weight_to_power"].low,
+                              POWER_LIMITED["weight_to_power"].high), "a vehicle profile's weight_to_power"),
 }  # fmt: skip
 """The values a sweep may take: the same ranges as the site file and vehicle profiles check. (SI)"""
 MAX_POINTS = 200
@@ -71,13 +71,14 @@ def parse_range(text: str, source: str = "command line") -> tuple[str, str, np.n
     start, stop, step = (parse_quantity(p, kind, source=source, field=f"--vary {field}") for p in parts)
     if step <= 0 or stop < start:
         raise InputError(source, "--vary", "STEP must be positive and STOP not below START")
-    low, high, rule = RANGES[field]
-    if start < low or stop > high:
-        raise InputError(source, f"--vary {field}", f"every value must lie {rule}")
     count = int(np.floor((stop - start) / step + 1e-9)) + 1
     if count > MAX_POINTS:
         raise InputError(source, "--vary", f"{count} points; at most {MAX_POINTS}")
-    return field, kind, start + step * np.arange(count)
+    values = start + step * np.arange(count)
+    limit, like = RANGES[field]
+    if not all(limit.holds(float(v)) for v in values):
+        raise InputError(source, f"--vary {field}", f"every value {limit.rule.removeprefix('must ')}, as {like}")
+    return field, kind, values
 
 
 def varied(site: Site, field: str, value: float) -> Site:

@@ -42,6 +42,7 @@ from .acceleration import AccelerationModel, LinearDecreasing, PowerLimited, Tab
 from .dynamics import PowerLimitedVehicle
 from .errors import InputError
 from .inputs import parse_yaml, read_text, validated
+from .limits import VEHICLE_SPEED
 from .units import parse_quantity, si_unit
 
 Category = Literal["passenger-car", "truck", "bus", "recreational"]
@@ -89,9 +90,6 @@ LINEAR_DECREASING: dict[str, Spec] = {
 TABULATED: dict[str, Spec] = {
     "grade_response": Spec("ratio", 0.0, 1.5, 1.0),
 }
-HIGHEST_SPEED = 300 / 3.6
-"""Highest speed a design vehicle is asked about: a tabulated model's rows, the speeds of ``accel``. [m/s] The accelerations are
-bounded by the linear-decreasing model's largest alpha, either sign."""
 
 
 class _Entry(BaseModel):
@@ -186,10 +184,15 @@ def load_vehicle(
     looks_like_path = ref.endswith((".yaml", ".yml")) or "/" in ref or "\\" in ref
     if looks_like_path:
         path = Path(ref) if relative_to is None or Path(ref).is_absolute() else relative_to / ref
+        if not path.exists():
+            rule = f"no vehicle profile file {path} (and not a bundled id: {', '.join(bundled_ids())})"
+            raise InputError(source, field or ref, rule)
         return parse_vehicle(read_text(path, "the vehicle profile"), str(path))
     if ref not in bundled_ids():
         raise InputError(
-            source, field or ref, f"unknown vehicle id; known ids: {', '.join(bundled_ids())}, or a profile file path"
+            source,
+            field or ref,
+            f"unknown vehicle id '{ref}'; known ids: {', '.join(bundled_ids())}, or a profile file path",
         )
     return parse_vehicle(_bundled_text(ref), ref)
 
@@ -340,11 +343,11 @@ def _tabulated(table: _Table, grade_response: float, source: str) -> Tabulated:
         factors.append(parse_quantity(f"1 {unit}", kind, source=source, field=f"table.{name}"))
     speeds = [row[0] * factors[0] for row in table.rows]
     accelerations = [row[1] * factors[1] for row in table.rows]
-    top_speed, most = HIGHEST_SPEED, LINEAR_DECREASING["alpha"].high
+    top_speed, most = VEHICLE_SPEED.high, LINEAR_DECREASING["alpha"].high
     for i, (v, a) in enumerate(zip(speeds, accelerations, strict=True)):
         if not (math.isfinite(v) and math.isfinite(a)) or v < 0:
             raise InputError(source, f"table.rows.{i}", "speed must be finite and not negative, acceleration finite")
-        if v > top_speed or abs(a) > most:
+        if v > top_speed or abs(a) > most:  # accelerations: the linear-decreasing model's largest alpha
             rule = f"speed must be at most {top_speed * 3.6:g} km/h and acceleration within +/- {most:g} m/s^2"
             raise InputError(source, f"table.rows.{i}", rule)
         if i and v <= speeds[i - 1]:

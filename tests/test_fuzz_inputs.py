@@ -3,6 +3,8 @@
 from __future__ import annotations
 
 import copy
+import random
+import sys
 from pathlib import Path
 from typing import Any
 
@@ -137,3 +139,31 @@ def test_number_and_unit_read_as_pint_reads_them(number: float, unit: tuple[str,
     text = f"{number!r} {unit[0]}"
     expected = float(ureg.Quantity(text).to(si_unit(unit[1]) or "dimensionless").magnitude)
     assert parse_quantity(text, unit[1], source="fuzz", field="f") == pytest.approx(expected, rel=1e-12, abs=1e-300)
+
+
+def _fuzz_harness() -> Any:
+    """scripts/fuzz_inputs.py, the mutation fuzzer whose long run prints the figures."""
+    import importlib.util
+
+    path = Path(__file__).parent.parent / "scripts" / "fuzz_inputs.py"
+    spec = importlib.util.spec_from_file_location("fuzz_inputs", path)
+    assert spec is not None and spec.loader is not None
+    module = importlib.util.module_from_spec(spec)
+    sys.modules[spec.name] = module  # its dataclasses look their module up
+    spec.loader.exec_module(module)
+    return module
+
+
+FUZZ = _fuzz_harness()
+
+
+@pytest.mark.parametrize("path", list(FUZZ.PATHS))
+def test_mutated_inputs_on_every_path_end_cleanly(path: str, tmp_path: Path) -> None:
+    """A seeded share (25 cases a path) of the long fuzz run: no traceback, no exit other than 0, 1 or 2, no
+    exit 2 without a message naming the file or option, no hang, no known-bad input accepted, no output left
+    behind for refused input, JSON that is JSON."""
+    outcomes = [FUZZ.run_case(FUZZ.PATHS[path](rng), tmp_path / "case") for rng in [random.Random(f"ci:{path}")] * 25]
+    failures = [(o.failure, o.case.note, o.detail) for o in outcomes if o.failure]
+    assert not failures, failures
+    if path in {"site file", "vehicle profile", "profile file", "batch folder"}:
+        assert sum(o.case.must_refuse for o in outcomes) >= 5  # the oracle is exercised, not skipped

@@ -76,7 +76,7 @@ CASES = [
         "criteria.vehicles.bus",
         "not listed",
     ),
-    (("policy",), "missing-table.yaml", "missing-table.yaml", "cannot read"),
+    (("policy",), "missing-table.yaml", "policy", "no file missing-table.yaml was found"),
 ]
 
 

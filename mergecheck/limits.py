@@ -1,0 +1,69 @@
+"""Physical ranges of the inputs, written once and checked the same way on every path.
+
+The site file, the command line's options and ``sweep`` read a value with the same :class:`Limit`,
+so that a flow, a headway or an elevation refused in one place is refused in every other, in the
+same words. Values are SI; the rule is worded in the unit a designer reads.
+
+The bounds are plausibility limits, not design values (common practice): they keep every model
+inside the range where its equations mean something (a lane cannot carry more than about
+3,000 veh/h; a minimum headway of over 5 s is no longer a car-following headway).
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+from .errors import InputError
+
+_SHOWN: dict[str, tuple[str, float]] = {
+    "flow": ("veh/h", 3600.0),
+    "time": ("s", 1.0),
+    "length": ("m", 1.0),
+    "speed": ("km/h", 3.6),
+    "grade": ("%", 100.0),
+    "weight_to_power": ("kg/kW", 1000.0),
+}
+
+
+@dataclass(frozen=True, slots=True)
+class Limit:
+    """A closed range [low, high] of one kind of quantity, and 0 besides when ``zero`` is set. [SI]"""
+
+    kind: str
+    low: float
+    high: float
+    zero: bool = False
+
+    def holds(self, value: float) -> bool:
+        return math.isfinite(value) and (self.low <= value <= self.high or (self.zero and value == 0))
+
+    @property
+    def rule(self) -> str:
+        """The rule in words, e.g. 'must be 0 or lie between 1 and 3000 veh/h'."""
+        unit, factor = _SHOWN[self.kind]
+        span = f"lie between {self.low * factor:g} and {self.high * factor:g} {unit}"
+        return f"must be 0 or {span}" if self.zero else f"must {span}"
+
+    def check(self, value: float, source: str, field: str) -> float:
+        """The value, or :class:`InputError` naming the source, the field and the rule."""
+        if not self.holds(value):
+            raise InputError(source, field, self.rule)
+        return value
+
+
+LANE_FLOW = Limit("flow", 1 / 3600, 3000 / 3600, zero=True)
+"""Flow in one lane (the adjacent through lane, a one-lane ramp): none, or at least a vehicle an hour (below
+that the headway formulas underflow, and no design hour is so empty)."""
+PROBE_FLOW = Limit("flow", 1 / 3600, 3000 / 3600)
+"""Flow in one lane for the headway figures of ``gaps`` (at least one vehicle an hour to wait for)."""
+CRITICAL_GAP = Limit("time", 0.0, 60.0)
+"""A critical gap or its spread."""
+MIN_HEADWAY = Limit("time", 0.0, 5.0)
+"""Cowan's M3 minimum headway Delta (also below the lane's mean headway, checked where the flow is known)."""
+ELEVATION = Limit("length", -500.0, 5000.0)
+"""Elevation above sea level."""
+VEHICLE_SPEED = Limit("speed", 0.0, 300 / 3.6)
+"""Any speed a design vehicle is asked about: ``accel`` speeds, a tabulated model's rows."""
+MAINLINE_SPEED = Limit("speed", 40 / 3.6, 160 / 3.6)
+"""Design and operating speeds of a freeway or expressway merge."""
