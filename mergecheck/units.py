@@ -104,7 +104,22 @@ def _si_factor(unit: str, kind: str) -> float | str:
         value = float(quantity.to(_KINDS[kind][0] or "dimensionless").magnitude)
     except pint.errors.DimensionalityError:
         return "wrong kind"
+    counts = [name for name, _ in quantity.unit_items() if _is_count(name)]
+    if counts not in _COUNTS_OF.get(kind, ([],)):
+        return "wrong kind"  # '5 rpm' is no flow, '3 deg' and '0.03 pc' no grade, '2 veh*m' no length
     return value if math.isfinite(value) else "not finite"
+
+
+_COUNTED = (["vehicle"], ["passenger_car"])
+_COUNTS_OF: dict[str, tuple[list[str], ...]] = {"grade": (["percent"],), "flow": _COUNTED, "density": _COUNTED}
+"""The pure-number units each kind is written with: a grade in percent, flows and densities in vehicles or
+passenger cars. Every other kind takes none (pint reads angles, revolutions and counts as pure numbers)."""
+
+
+@functools.lru_cache(maxsize=256)
+def _is_count(name: str) -> bool:
+    """Whether a unit name is a pure number to pint (percent, vehicle, radian, degree, revolution, ...)."""
+    return bool(ureg.Quantity(1, name).dimensionless)
 
 
 _BARE_NUMBER = re.compile(r"\s*[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?\s*")

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import copy
 import json
+import re
 from pathlib import Path
 from typing import Any
 
@@ -152,6 +153,20 @@ def test_a_byte_that_is_not_utf8_is_a_clear_error_everywhere(cli: Any, repo: Pat
     doc = json.loads((tmp_path / "out.json").read_text(encoding="utf-8"))
     assert doc["summary"]["sites"] == 2 and doc["summary"]["unreadable"] == 1 and doc["summary"]["meets"] == 1
     assert "not UTF-8 text" in json.dumps(doc["sites"])
+
+
+@pytest.mark.parametrize(
+    ("text", "kind"),
+    [("0.03 pc", "grade"), ("3 deg", "grade"), ("5 rpm", "flow"), ("1400 1/h", "flow"), ("2 veh*m", "length"),
+     ("65 pc*mph", "speed"), ("12 rad/km", "density")],
+)  # fmt: skip
+def test_a_unit_of_another_kind_is_refused(text: str, kind: str) -> None:
+    """Pint reads counts, angles and revolutions as pure numbers, so '0.03 pc' passed as a 3 % grade and '5 rpm'
+    as a flow: a grade is written in percent, a flow or density per vehicle or passenger car, nothing else."""
+    from mergecheck.units import parse_quantity
+
+    with pytest.raises(InputError, match=rf"site\.yaml: f: wrong kind of quantity '{re.escape(text)}'"):
+        parse_quantity(text, kind, source="site.yaml", field="f")
 
 
 @pytest.mark.parametrize(
