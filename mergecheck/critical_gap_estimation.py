@@ -42,8 +42,6 @@ from dataclasses import dataclass
 
 import numpy as np
 from numpy.typing import NDArray
-from scipy import optimize
-from scipy.special import ndtr
 
 from .errors import InputError
 from .inputs import csv_rows, read_text
@@ -144,6 +142,8 @@ def _seconds(text: str | None, path: str, line: int, column: str, *, required: b
 
 
 def _log_likelihood(params: FloatArray, accepted: FloatArray, rejected: FloatArray) -> float:
+    from scipy.special import ndtr  # scipy is imported by this command alone, not by every start
+
     mu, log_sigma = params
     sigma = math.exp(log_sigma)
     upper = ndtr((np.log(accepted) - mu) / sigma)
@@ -153,6 +153,8 @@ def _log_likelihood(params: FloatArray, accepted: FloatArray, rejected: FloatArr
 
 def maximum_likelihood(observations: GapObservations) -> CriticalGapEstimate:
     """Log-normal critical gaps by maximum likelihood, Eq. (1)."""
+    from scipy import optimize
+
     a, r = observations.accepted, observations.rejected
     start = np.array([math.log(float(np.mean(np.sqrt(a * np.maximum(r, a / 2))))), math.log(0.3)])
     fit = optimize.minimize(

@@ -60,7 +60,6 @@ from typing import Literal, NamedTuple
 import numpy as np
 import yaml
 from numpy.typing import NDArray
-from scipy.fft import irfft, next_fast_len, rfft
 
 from .headways import HeadwayModel, mean_wait
 from .merge_behaviour import CELL, MergeBehaviour, Rules, rule_along, simulate, solve
@@ -290,6 +289,8 @@ def _cell_masses(
 
 def _solve(streams: Sequence[_CellMasses]) -> list[Renewal]:
     """The damped-FFT solution (:class:`Renewal`) for several streams in one transform."""
+    from scipy.fft import irfft, next_fast_len, rfft  # the classic model only: not imported by every start
+
     width = max(s.rejected.shape[1] for s in streams)
     size = next_fast_len(max(max(math.ceil(1.25 * s.cells), s.rejected.shape[1] + 2) for s in streams), real=True)
     window = _window(size)

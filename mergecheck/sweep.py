@@ -71,13 +71,16 @@ def parse_range(text: str, source: str = "command line") -> tuple[str, str, np.n
     start, stop, step = (parse_quantity(p, kind, source=source, field=f"--vary {field}") for p in parts)
     if step <= 0 or stop < start:
         raise InputError(source, "--vary", "STEP must be positive and STOP not below START")
-    count = int(np.floor((stop - start) / step + 1e-9)) + 1
-    if count > MAX_POINTS:
-        raise InputError(source, "--vary", f"{count} points; at most {MAX_POINTS}")
-    values = start + step * np.arange(count)
     limit, like = RANGES[field]
+    rule = f"every value {limit.rule}, as {like}"
+    if not (limit.holds(start) and limit.holds(stop)):
+        raise InputError(source, f"--vary {field}", rule)
+    count = (stop - start) / step + 1
+    if count > MAX_POINTS:
+        raise InputError(source, "--vary", f"{count:.3g} points; at most {MAX_POINTS}")
+    values = start + step * np.arange(int(np.floor(count - 1 + 1e-9)) + 1)
     if not all(limit.holds(float(v)) for v in values):
-        raise InputError(source, f"--vary {field}", f"every value {limit.rule.removeprefix('must ')}, as {like}")
+        raise InputError(source, f"--vary {field}", rule)
     return field, kind, values
 
 

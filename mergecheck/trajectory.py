@@ -16,8 +16,9 @@ dt/dx.
 
 Every trajectory of a site, or of thousands of sites, is integrated in one
 loop: the explicit Runge-Kutta pair of Dormand and Prince (1980), 5th order
-with a 4th-order error estimate and its 4th-order continuous extension, the
-coefficients taken from :class:`scipy.integrate.RK45`. Each vehicle keeps its
+with a 4th-order error estimate and its 4th-order continuous extension (the
+tableau of Hairer, Norsett and Wanner, Table II.5.2, written below; the same
+numbers as :class:`scipy.integrate.RK45`, tested). Each vehicle keeps its
 own step size, chosen by the usual error control (Hairer, Norsett and Wanner,
 Solving Ordinary Differential Equations I, 2nd ed., 1993, II.4; relative and
 absolute tolerance 1e-8 on u and 1e-9 on t), and steps never cross a grade
@@ -44,10 +45,10 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
+from fractions import Fraction as F
 
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
-from scipy.integrate import RK45
 
 from .acceleration import AccelerationModel, ModelStack
 from .profile import ProfileStack, VerticalProfile
@@ -63,7 +64,25 @@ _RECHECK = 500.0  # m: the crawl speed is found again after this much climbing (
 _SETTLED = 0.02  # relative closeness to the crawl speed at which integration stops
 _TOLERANCE = np.array([[1e-8], [1e-9]])  # relative and absolute: on u [m^2/s^2], on t [s]
 _SAFETY, _MIN_FACTOR, _MAX_FACTOR = 0.9, 0.2, 10.0  # step-size control (Hairer et al. II.4)
-_A, _B, _C, _E, _P = RK45.A, RK45.B, RK45.C, RK45.E, RK45.P  # Dormand-Prince 5(4) and its dense output
+# Dormand-Prince 5(4) (Dormand and Prince 1980; Hairer, Norsett and Wanner 1993, Table II.5.2): nodes _C,
+# stage weights _A, 5th-order weights _B, error weights _E (5th minus 4th order, with the FSAL 7th stage) and
+# the continuous extension _P (Hairer's dense output of dopri5, as a polynomial in the step fraction)
+_C = np.array([0, 1 / 5, 3 / 10, 4 / 5, 8 / 9, 1], dtype=float)
+_A = np.array([[0, 0, 0, 0, 0],
+               [F(1, 5), 0, 0, 0, 0],
+               [F(3, 40), F(9, 40), 0, 0, 0],
+               [F(44, 45), F(-56, 15), F(32, 9), 0, 0],
+               [F(19372, 6561), F(-25360, 2187), F(64448, 6561), F(-212, 729), 0],
+               [F(9017, 3168), F(-355, 33), F(46732, 5247), F(49, 176), F(-5103, 18656)]], dtype=float)  # fmt: skip
+_B = np.array([F(35, 384), 0, F(500, 1113), F(125, 192), F(-2187, 6784), F(11, 84)], dtype=float)
+_E = np.array([F(-71, 57600), 0, F(71, 16695), F(-71, 1920), F(17253, 339200), F(-22, 525), F(1, 40)], dtype=float)
+_P = np.array([[1.0, -2.8535800653862835, 3.0717434641059005, -1.1270175653862835],
+               [0.0, 0.0, 0.0, 0.0],
+               [0.0, 4.023133379230305, -6.249321565289, 2.675424484351598],
+               [0.0, -3.7324019615885042, 10.068970589843675, -5.685526961588504],
+               [0.0, 2.5548038301849423, -6.399112377351017, 3.5219323679207912],
+               [0.0, -1.3744241142186024, 3.272657752246729, -1.7672812570757455],
+               [0.0, 1.3824689317781436, -3.764937863556287, 2.382468931778144]])  # fmt: skip
 # Weighted sums of stages use numpy.einsum, not BLAS: the arrays are small and BLAS threads would
 # fight the batch's worker processes for the cores.
 

@@ -6,7 +6,10 @@ results are shown.
 
 The registry is taught two traffic units: ``veh`` (a vehicle, dimensionless
 count) and ``pc`` (a passenger car, also a count; pint's default reads ``pc``
-as a parsec, which would turn "1800 pc/h" into a speed).
+as a parsec, which would turn "1800 pc/h" into a speed). It is built on first
+use: the units a designer writes every day are read from :data:`KNOWN_UNITS`
+(exact definitions, the same values as pint's, tested), so a site file in
+those units never starts pint at all.
 """
 
 from __future__ import annotations
@@ -17,11 +20,41 @@ import re
 from dataclasses import dataclass
 from typing import Any, Literal
 
-import pint
 
-ureg: pint.UnitRegistry[Any] = pint.UnitRegistry()
-ureg.define("vehicle = [] = veh")
-ureg.define("passenger_car = [] = pc = pcu")
+@functools.cache
+def registry() -> Any:
+    """The package's one pint registry (built on first use), with vehicles and passenger cars as counts."""
+    import pint
+
+    units: Any = pint.UnitRegistry()
+    units.define("vehicle = [] = veh")
+    units.define("passenger_car = [] = pc = pcu")
+    return units
+
+
+def __getattr__(name: str) -> Any:  # ``units.ureg``: the registry, built when first asked for (PEP 562)
+    if name == "ureg":
+        return registry()
+    raise AttributeError(f"module {__name__!r} has no attribute {name!r}")
+
+
+_MILE, _FOOT, _POUND, _HORSEPOWER = 1609.344, 0.3048, 0.45359237, 745.69987158227022
+"""Exact by definition (international yard and pound, 1959; mechanical horsepower = 550 ft lbf/s). [SI]"""
+KNOWN_UNITS: dict[str, tuple[str, float]] = {
+    "m/s": ("speed", 1.0), "km/h": ("speed", 1 / 3.6), "mph": ("speed", _MILE / 3600), "ft/s": ("speed", _FOOT),
+    "m": ("length", 1.0), "km": ("length", 1000.0), "ft": ("length", _FOOT), "mi": ("length", _MILE),
+    "%": ("grade", 0.01),
+    "s": ("time", 1.0), "min": ("time", 60.0), "h": ("time", 3600.0),
+    "kg": ("mass", 1.0), "lb": ("mass", _POUND),
+    "W": ("power", 1.0), "kW": ("power", 1000.0), "hp": ("power", _HORSEPOWER),
+    "kg/kW": ("weight_to_power", 1e-3), "lb/hp": ("weight_to_power", _POUND / _HORSEPOWER),
+    "m/s^2": ("acceleration", 1.0), "m/s²": ("acceleration", 1.0), "ft/s^2": ("acceleration", _FOOT),
+    "veh/h": ("flow", 1 / 3600), "pc/h": ("flow", 1 / 3600),
+    "veh/km": ("density", 1e-3), "veh/mi": ("density", 1 / _MILE), "pc/km": ("density", 1e-3),
+    "pc/mi": ("density", 1 / _MILE),
+    "1/s": ("frequency", 1.0),
+}  # fmt: skip
+"""The units written every day, each with its kind and its value in SI: read without pint."""
 
 UnitSystem = Literal["si", "us"]
 
@@ -94,6 +127,12 @@ _RULES = {
 
 def _si_factor(unit: str, kind: str) -> float | str:
     """The SI value of one ``unit`` of this kind of quantity, or the key of the rule it breaks in ``_RULES``."""
+    known = KNOWN_UNITS.get(unit)
+    if known is not None and known[0] == kind:
+        return known[1]
+    import pint
+
+    ureg = registry()
     try:
         quantity: Any = ureg.Quantity(f"1 {unit}")
     except Exception:  # pint's parser raises many kinds (tokenize, assertion, pint, value errors) on odd text
@@ -119,7 +158,7 @@ passenger cars. Every other kind takes none (pint reads angles, revolutions and 
 @functools.lru_cache(maxsize=256)
 def _is_count(name: str) -> bool:
     """Whether a unit name is a pure number to pint (percent, vehicle, radian, degree, revolution, ...)."""
-    return bool(ureg.Quantity(1, name).dimensionless)
+    return bool(registry().Quantity(1, name).dimensionless)
 
 
 _BARE_NUMBER = re.compile(r"\s*[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?\s*")
@@ -166,7 +205,9 @@ _US_SPEEDS = (0.44704, 0.3048)
 
 
 def _names_passenger_cars(text: str) -> bool:
-    return "passenger_car" in str(ureg.Quantity(text).units)
+    if text in KNOWN_UNITS:
+        return text.startswith("pc")
+    return "passenger_car" in str(registry().Quantity(text).units)
 
 
 def number(si_value: float | None, kind: str, system: UnitSystem) -> str:
@@ -200,7 +241,8 @@ class DisplayUnit:
 
 
 def _factor(unit: str, si_unit: str) -> float:
-    return float(ureg.Quantity(1.0, si_unit).to(unit).magnitude)
+    """Display units per SI unit (``si_unit`` names the kind's SI unit, kept for reading)."""
+    return 1.0 / KNOWN_UNITS[unit][1]
 
 
 DISPLAY: dict[UnitSystem, dict[str, DisplayUnit]] = {
@@ -220,7 +262,7 @@ DISPLAY: dict[UnitSystem, dict[str, DisplayUnit]] = {
         "length": DisplayUnit("ft", _factor("ft", "m"), 0),
         "time": DisplayUnit("s", 1.0, 1),
         "grade": DisplayUnit("%", 100.0, 1),
-        "acceleration": DisplayUnit("ft/s²", _factor("ft/s**2", "m/s**2"), 2),
+        "acceleration": DisplayUnit("ft/s²", _factor("ft/s^2", "m/s**2"), 2),
         "weight_to_power": DisplayUnit("lb/hp", _factor("lb/hp", "kg/W"), 0),
         "mass": DisplayUnit("lb", _factor("lb", "kg"), 0),
         "power": DisplayUnit("hp", _factor("hp", "W"), 0),

@@ -251,6 +251,8 @@ def test_a_batch_chunk_of_unreadable_sites_is_reported(tmp_path: Path, cli: Any)
         ("adjacent_lane_flow=1000 veh/h:4000 veh/h:1000 veh/h", "3000 veh/h, as mainline.adjacent_lane_flow"),
         ("lane_length=1 m:1e300 m:1e299 m", "5000 m, as geometry.lane_length"),
         ("grade=-1 %:50 %:10 %", "as a profile grade"),
+        ("adjacent_lane_flow=0 veh/h:0.5 veh/h:0.25 veh/h", "must be 0 or lie between 1 and 3000 veh/h"),
+        ("lane_length=200 m:600 m:1e-300 m", "4e+302 points; at most 200"),
     ],
 )
 def test_sweep_values_are_checked_as_the_site_file_checks_them(cli: Any, repo: Path, vary: str, rule: str) -> None:

@@ -175,3 +175,14 @@ def test_a_model_returning_nonsense_stops_instead_of_looping() -> None:
     run = accelerate(_Broken(), LEVEL, 5.0, 20.0)
     assert not run.reaches_target
     assert run.end < 100.0 and float(run.speed_at(run.end)) <= 10.0 + 1e-6
+
+
+def test_dormand_prince_tableau_is_the_reference_librarys() -> None:
+    """The tableau written out in the engine equals scipy.integrate.RK45's (general-purpose reference library;
+    Dormand and Prince 1980), so the engine need not import scipy.integrate to read it."""
+    from scipy.integrate import RK45
+
+    from mergecheck import trajectory
+
+    for name in "ABCEP":
+        assert np.array_equal(getattr(trajectory, f"_{name}"), getattr(RK45, name)), name
