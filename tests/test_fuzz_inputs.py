@@ -124,16 +124,25 @@ def test_vehicle_profile_values_never_raise_anything_else(block: str, name: str,
         assert vehicle.id == "passenger-car"
 
 
-UNITS = [("mph", "speed"), ("km/h", "speed"), ("ft", "length"), ("mi", "length"), ("%", "grade"),
-         ("kg/kW", "weight_to_power"), ("lb/hp", "weight_to_power"), ("veh/h", "flow"), ("pc/h", "flow"),
-         ("m/s^2", "acceleration"), ("veh/mi", "density"), ("hp", "power"), ("lb", "mass")]  # fmt: skip
+from mergecheck.units import KNOWN_UNITS  # noqa: E402
+
+UNITS = [(unit, kind) for unit, (kind, _) in KNOWN_UNITS.items()]
+
+
+@pytest.mark.parametrize(("unit", "kind"), UNITS)
+def test_every_unit_read_without_pint_is_pints(unit: str, kind: str) -> None:
+    """Each exact definition in the table equals pint's conversion (general-purpose reference library), 1e-15."""
+    from mergecheck.units import registry, si_unit
+
+    expected = float(registry().Quantity(f"1 {unit}").to(si_unit(kind) or "dimensionless").magnitude)
+    assert KNOWN_UNITS[unit][1] == pytest.approx(expected, rel=1e-15)
 
 
 @settings(max_examples=200, deadline=None)
 @given(number=st.floats(min_value=-1e6, max_value=1e6, allow_nan=False), unit=st.sampled_from(UNITS))
 def test_number_and_unit_read_as_pint_reads_them(number: float, unit: tuple[str, str]) -> None:
-    """The quick path for 'number unit' text (the unit's factor read once) gives pint's own conversion
-    (general-purpose reference library) to 1e-12 relative."""
+    """Every unit read without pint (:data:`mergecheck.units.KNOWN_UNITS`, exact definitions) gives pint's own
+    conversion (general-purpose reference library) to 1e-12 relative."""
     from mergecheck.units import parse_quantity, si_unit, ureg
 
     text = f"{number!r} {unit[0]}"
