@@ -7,7 +7,7 @@ from __future__ import annotations
 
 import argparse
 import sys
-from collections.abc import Callable, Sequence
+from collections.abc import Callable, Iterator, Sequence
 from typing import Any, NoReturn
 
 from rich.console import Console, RenderableType
@@ -276,6 +276,7 @@ def _check(args: argparse.Namespace, out: Console, err: Console) -> int:
     documents = [Output(o.option, o.path, render(o.option)) for o in asked]
     write_all(documents, [args.site])
     if args.json == "-":
+        assert isinstance(documents[0].text, str)
         sys.stdout.write(documents[0].text)
     else:
         out.print(terminal.site_view(assessment, args.units))
@@ -421,8 +422,8 @@ def _batch(args: argparse.Namespace, out: Console, err: Console) -> int:
         results = assess_all(entries, workers=args.workers)
     results = ranked(results)
     summary = summarize(results)
-    render = {
-        "--json": lambda: json_report.dumps(json_report.batch_json(results, summary)),
+    render: dict[str, Callable[[], str | Iterator[str]]] = {
+        "--json": lambda: json_report.batch_json(results, summary),
         "--csv": lambda: csv_report.batch_csv(results, args.units),
         "--markdown": lambda: markdown.batch_markdown(results, summary, args.units),
     }

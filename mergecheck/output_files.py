@@ -37,11 +37,12 @@ _KINDS = (
 
 @dataclass(frozen=True, slots=True)
 class Output:
-    """One file a run writes: the option that named it, the path as given, and the text."""
+    """One file a run writes: the option that named it, the path as given, and the text (or its pieces in turn,
+    for a document too large to hold whole)."""
 
     option: str
     path: str
-    text: str = ""
+    text: str | Iterable[str] = ""
 
 
 def _target(option: str, path: str) -> Path:
@@ -114,7 +115,10 @@ def _stage(output: Output, target: Path) -> str:
     handle, temporary = tempfile.mkstemp(dir=target.parent, prefix=f".{target.name}.", suffix=".part")
     try:
         with os.fdopen(handle, "w", encoding="utf-8") as stream:
-            stream.write(output.text)
+            if isinstance(output.text, str):
+                stream.write(output.text)
+            else:
+                stream.writelines(output.text)
         try:
             existing = target.stat()
         except FileNotFoundError:

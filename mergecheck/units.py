@@ -53,6 +53,7 @@ KNOWN_UNITS: dict[str, tuple[str, float]] = {
     "veh/km": ("density", 1e-3), "veh/mi": ("density", 1 / _MILE), "pc/km": ("density", 1e-3),
     "pc/mi": ("density", 1 / _MILE),
     "1/s": ("frequency", 1.0),
+    "m^2": ("area", 1.0), "m²": ("area", 1.0),
 }  # fmt: skip
 """The units written every day, each with its kind and its value in SI: read without pint."""
 

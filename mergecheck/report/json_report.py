@@ -2,8 +2,10 @@
 
 from __future__ import annotations
 
-import json
+from collections.abc import Iterator
 from typing import Any
+
+import orjson
 
 from ..assessment import SiteAssessment
 from ..batch import BatchResult, BatchSummary
@@ -68,8 +70,12 @@ def vehicles_json(figures: list[VehicleFigures]) -> list[dict[str, Any]]:
     ]
 
 
+_OPTIONS = orjson.OPT_INDENT_2 | orjson.OPT_SERIALIZE_NUMPY
+
+
 def dumps(document: Any) -> str:
-    return json.dumps(document, indent=2, ensure_ascii=False) + "\n"
+    """A document as JSON text (UTF-8, two-space indent; orjson, which writes only valid JSON)."""
+    return orjson.dumps(document, option=_OPTIONS).decode("utf-8") + "\n"
 
 
 def site_json(assessment: SiteAssessment) -> dict[str, Any]:
@@ -269,9 +275,11 @@ def merge_area_json(operations: MergeOperations | None) -> dict[str, Any] | None
     return document
 
 
-def batch_json(results: list[BatchResult], summary: BatchSummary) -> dict[str, Any]:
-    """The ``batch --json`` document: the summary, then every site ranked worst first with its full check."""
-    return {
+def batch_json(results: list[BatchResult], summary: BatchSummary) -> Iterator[str]:
+    """The ``batch --json`` document, a piece at a time: the summary, then every site ranked worst first with its
+    full check. Each site's check is built and encoded in turn, so a document of 100,000 sites is never held
+    whole, as objects or as text."""
+    head = {
         "summary": {
             "sites": summary.total,
             "meets": summary.meets,
@@ -281,16 +289,19 @@ def batch_json(results: list[BatchResult], summary: BatchSummary) -> dict[str, A
             "short_by_governing_vehicle": summary.short_by_vehicle,
         },
         "cautions": list(CAUTIONS),
-        "sites": [
-            {
-                "rank": rank,
-                "input": r.label,
-                "error": r.error,
-                "check": None if r.assessment is None else site_json(r.assessment),
-            }
-            for rank, r in enumerate(results, start=1)
-        ],
     }
+    opening = orjson.dumps(head, option=_OPTIONS).decode("utf-8")
+    yield opening[: opening.rindex("}")].rstrip() + ',\n  "sites": ['
+    for rank, r in enumerate(results, start=1):
+        item = {
+            "rank": rank,
+            "input": r.label,
+            "error": r.error,
+            "check": None if r.assessment is None else site_json(r.assessment),
+        }
+        text = orjson.dumps(item, option=_OPTIONS).decode("utf-8").replace("\n", "\n    ")
+        yield ("\n    " if rank == 1 else ",\n    ") + text
+    yield "\n  ]\n}\n" if results else "]\n}\n"
 
 
 def sweep_json(result: Sweep) -> dict[str, Any]:

@@ -364,8 +364,12 @@ def area_view(area: MergeArea) -> RenderableType:
     return with_cautions(table)
 
 
+BATCH_ROWS_SHOWN = 25
+"""Sites a batch lists on the terminal, worst first; the files written hold every site."""
+
+
 def batch_view(results: list[BatchResult], summary: BatchSummary, system: UnitSystem) -> RenderableType:
-    """Summary line, then the sites ranked worst first."""
+    """Summary line, then the worst sites (at most :data:`BATCH_ROWS_SHOWN`) and a count of the rest."""
     head = Text.assemble(
         (f"{summary.total} sites: ", "bold"),
         (f"{summary.meets} meet", "green"),
@@ -383,7 +387,7 @@ def batch_view(results: list[BatchResult], summary: BatchSummary, system: UnitSy
     for heading in ("Need", "Have", "Short by"):
         table.add_column(f"{heading} ({unit_symbol('length', system)})", justify="right", no_wrap=True)
     table.add_column(f"Δv ({unit_symbol('speed', system)})", justify="right", no_wrap=True)
-    for rank, result in enumerate(results, start=1):
+    for rank, result in enumerate(results[:BATCH_ROWS_SHOWN], start=1):
         row = batch_row(rank, result, system)
         if result.assessment is None:
             table.add_row(
@@ -408,7 +412,11 @@ def batch_view(results: list[BatchResult], summary: BatchSummary, system: UnitSy
             row["deficit"] or "-",
             row["speed_differential_at_lane_end"],
         )
-    return with_cautions(Group(head, Text(f"Short sites by governing vehicle: {by_vehicle}"), Text(""), table))
+    parts: list[RenderableType] = [head, Text(f"Short sites by governing vehicle: {by_vehicle}"), Text(""), table]
+    rest = len(results) - BATCH_ROWS_SHOWN
+    if rest > 0:
+        parts.append(Text(f"... and {rest} more sites, ranked after these: --csv FILE or --json FILE lists them all."))
+    return with_cautions(Group(*parts))
 
 
 def sweep_view(result: Sweep, system: UnitSystem) -> RenderableType:
