@@ -1,7 +1,56 @@
 """mergecheck: checks an entrance ramp's acceleration lane and merge.
 
+The public interface (documented in the README, "Python"): load or build a site, assess it, run a batch or a
+sweep, and read the results as plain data or as documents::
+
+    >>> import mergecheck
+    >>> site = mergecheck.load_site("examples/willowmere-level.yaml")  # doctest: +SKIP
+    >>> mergecheck.assess(site).verdict  # doctest: +SKIP
+    'meets'
+
 The core is pure functions on SI floats and numpy arrays; units live only at
-the edges (:mod:`mergecheck.units`).
+the edges (:mod:`mergecheck.units`). Everything not named in ``__all__`` is
+internal and may change.
 """
 
+from .api import (
+    assess,
+    assess_batch,
+    assess_sites,
+    design_exception,
+    load_site,
+    site_from_dict,
+    sweep_site,
+    to_html,
+    to_json,
+    to_markdown,
+    vehicle_records,
+)
+from .assessment import SiteAssessment, VehicleAssessment
+from .batch import BatchResult
+from .errors import InputError
+from .site import Site
+from .sweep import Sweep
+
 __version__ = "0.1.0"
+
+__all__ = [
+    "BatchResult",
+    "InputError",
+    "Site",
+    "SiteAssessment",
+    "Sweep",
+    "VehicleAssessment",
+    "__version__",
+    "assess",
+    "assess_batch",
+    "assess_sites",
+    "design_exception",
+    "load_site",
+    "site_from_dict",
+    "sweep_site",
+    "to_html",
+    "to_json",
+    "to_markdown",
+    "vehicle_records",
+]

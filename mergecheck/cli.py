@@ -14,12 +14,11 @@ from rich.console import Console, RenderableType
 from rich.progress import MofNCompleteColumn, Progress
 from rich.text import Text
 
-from . import __version__
-from .assessment import assess
+from . import __version__, api
 from .batch import assess_all, ranked, read_entries, source_files, summarize
 from .critical_gap_estimation import ESTIMATORS, read_observations
 from .errors import InputError
-from .exception import design_exception
+from .exception import DesignException
 from .figures import vehicle_figures
 from .headways import HEADWAY_MODELS, headway_model, mean_wait
 from .inputs import ProfileFile, build_profile, check_grade, control_character, printable, read_yaml, validated
@@ -250,30 +249,25 @@ def _check(args: argparse.Namespace, out: Console, err: Console) -> int:
     asked = [Output(option, path) for option, path in (("--json", args.json), ("--markdown", args.markdown),
                                                         ("--html", args.html)) if path is not None]  # fmt: skip
     check_outputs(asked, [args.site])
-    site = load_site(args.site)
+    site = api.load_site(args.site)
     if args.monte_carlo and err.is_terminal:  # the drivers simulated, with the time left; quiet when piped
         columns = (*Progress.get_default_columns(), MofNCompleteColumn())
         with Progress(*columns, console=err, transient=True) as progress:
             task = progress.add_task("Simulating drivers", total=args.monte_carlo * len(site.vehicles))
-            assessment = assess(
+            assessment = api.assess(
                 site, monte_carlo=args.monte_carlo, progress=lambda count: progress.advance(task, count)
             )
     else:
-        assessment = assess(site, monte_carlo=args.monte_carlo)
-    exception = None
+        assessment = api.assess(site, monte_carlo=args.monte_carlo)
+    study: bool | DesignException = False
     if (args.exception or assessment.verdict == "short") and (args.html is not None or args.markdown is not None):
-        exception = design_exception(assessment)
-
-    def render(option: str) -> str:
-        if option == "--json":
-            return json_report.dumps(json_report.site_json(assessment))
-        if option == "--markdown":
-            return markdown.site_markdown(assessment, args.units, exception)
-        from .report import html  # matplotlib is slow to import: only when a page is asked for
-
-        return html.site_html(assessment, args.units, exception)
-
-    documents = [Output(o.option, o.path, render(o.option)) for o in asked]
+        study = api.design_exception(assessment)  # once, for both documents
+    render = {
+        "--json": lambda: api.to_json(assessment),
+        "--markdown": lambda: api.to_markdown(assessment, units=args.units, exception=study),
+        "--html": lambda: api.to_html(assessment, units=args.units, exception=study),
+    }
+    documents = [Output(o.option, o.path, render[o.option]()) for o in asked]
     write_all(documents, [args.site])
     if args.json == "-":
         assert isinstance(documents[0].text, str)

@@ -214,12 +214,13 @@ def test_an_output_path_that_is_a_folder_is_an_input_error(cli: Any, repo: Path,
 
 def test_an_internal_error_has_its_own_exit_code(monkeypatch: Any, capsys: Any) -> None:
     """A defect must never read as a verdict: exit 3 (not 1, 'falls short'), with a request for a report."""
+    from mergecheck import api
     from mergecheck import cli as command_line
 
-    def broken(*_: Any) -> Any:
+    def broken(*_: Any, **__: Any) -> Any:
         raise ZeroDivisionError("float division by zero")
 
-    monkeypatch.setattr(command_line, "assess", broken)
+    monkeypatch.setattr(api, "assess", broken)
     code = command_line.main(["check", str(Path(__file__).parent.parent / "examples" / "willowmere-level.yaml")])
     assert code == command_line.EXIT_INTERNAL == 3
     err = capsys.readouterr().err
