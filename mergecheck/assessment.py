@@ -46,7 +46,6 @@ from .gap_acceptance import (
     monte_carlo_check,
 )
 from .headways import HeadwayModel, headway_model
-from .merge_behaviour import SOURCES, plain_words
 from .merge_operations import MergeOperations, merge_operations
 from .policy import PolicyTable, PolicyValue, initial_speed_for, load_policy, policy_minimum
 from .site import Site, SiteVehicle
@@ -68,15 +67,6 @@ FloatArray = NDArray[np.float64]
 VehicleVerdict = Literal["meets", "short", "cannot-reach"]
 SiteVerdict = Literal["meets", "short"]
 _RANK: dict[VehicleVerdict, int] = {"meets": 0, "short": 1, "cannot-reach": 2}
-
-
-@dataclass(frozen=True, slots=True)
-class Assumption:
-    """One assumption behind the result: what, its value, and where it comes from."""
-
-    name: str
-    value: str
-    source: str
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)
@@ -158,16 +148,6 @@ class SiteAssessment:
     """Why the merge-area method was not applied to a site that gives a mainline flow ('' when applied or when
     there is no mainline flow)."""
     cautions: tuple[str, ...]
-
-    @property
-    def summary(self) -> str:
-        """The one sentence that matters, in SI units."""
-        return summary_sentence(self, "si")
-
-    @property
-    def assumptions(self) -> tuple[Assumption, ...]:
-        """Every assumption behind the result, with its value and source."""
-        return _assumptions(self)
 
     def figures_only(self) -> SiteAssessment:
         """The same assessment without the curves along the path (what a batch keeps of each site)."""
@@ -456,207 +436,3 @@ def _initial_speed(site: Site, table: PolicyTable | None) -> tuple[float, str]:
         if value is not None:
             return value, f"the policy table's initial speed for this controlling speed ({table.title})"
     return site.controlling_speed, "the controlling-curve design speed (no policy initial speed applies)"
-
-
-def _assumptions(assessment: SiteAssessment) -> tuple[Assumption, ...]:
-    site, results, policy = assessment.site, assessment.vehicles, assessment.policy
-    initial, initial_basis = assessment.initial_speed, assessment.initial_speed_basis
-    items = [
-        Assumption(
-            "Mainline operating speed at the merge",
-            show(site.operating_speed, "speed", "si"),
-            site.operating_speed_basis,
-        ),
-        Assumption("Speed leaving the controlling curve", show(initial, "speed", "si"), initial_basis),
-        _before_the_nose(site, results, initial),
-        Assumption(
-            "Merge speed",
-            "; ".join(f"{r.vehicle.id} {show(r.merge_speed, 'speed', 'si')}" for r in results),
-            "operating speed less the merge speed differential; policy tables use about 5 mph (8 km/h) "
-            "below the running speed for passenger cars (AASHTO Green Book basis, from memory)",
-        ),
-        Assumption(
-            "Acceleration length definition",
-            "convergence point to where merge speed is reached",
-            "as the policy acceleration-length tables measure it (convergence point to the start of the taper)",
-        ),
-        Assumption(
-            "Taper credit",
-            f"{site.taper_credit:.0%} of the taper counted as acceleration length",
-            "site file criteria (0 % is the policy-table definition)",
-        ),
-        Assumption(
-            "Large speed differential",
-            f"above {show(site.flag_speed_differential, 'speed', 'si')} at the end of the lane",
-            "crash involvement rises steeply as speed departs from the stream's (Solomon, 1964, from memory); "
-            "threshold is a site criterion",
-        ),
-        Assumption(
-            "Adjacent-lane headways",
-            _headway_text(site),
-            "Cowan (1975), Transportation Research 9(6); Tanner (1962) for the free share"
-            if site.gaps.headway_model == "m3"
-            else "random arrivals (Adams 1936)",
-        ),
-        _behaviour_assumption(site),
-        Assumption(
-            "Merge reliability target",
-            f"{site.gaps.reliability:.0%} of drivers merged by the end of the lane",
-            "site criterion (default 95 %)",
-        ),
-        Assumption(
-            "Elevation at station 0",
-            show(site.elevation, "length", "si"),
-            "site file (0 m if not given); lowers air density and engine power",
-        ),
-        Assumption(
-            "Integration",
-            "speed integrated along distance, grade as a function of station",
-            "Dormand-Prince 5(4) with step-size control, tolerance 1e-8 on speed squared and 1e-9 on time (SciPy's coefficients); checked against "
-            "closed forms and an independent time-domain solution in the test suite",
-        ),
-    ]
-    for r in results:
-        v = r.vehicle
-        items.append(
-            Assumption(
-                f"{v.id}: critical gap",
-                f"at speed {r.critical_gap.mean:.1f} s (sd {r.critical_gap.sd:.1f} s); "
-                f"from a stop {r.stop_critical_gap.mean:.1f} s (sd {r.stop_critical_gap.sd:.1f} s), log-normal",
-                f"{r.critical_gap.source}; from a stop: {r.stop_critical_gap.source}",
-            )
-        )
-        for parameter in v.parameters:
-            items.append(Assumption(f"{v.id}: {parameter.name}", parameter.text, parameter.source))
-    if assessment.merge_area_not_applied:
-        items.append(
-            Assumption(
-                "Merge-area method",
-                f"not applied: {assessment.merge_area_not_applied}",
-                "Highway Capacity Manual 6th/7th ed., chapter 14",
-            )
-        )
-    elif site.merge.mainline_flow is not None:
-        m = site.merge
-        items += [
-            Assumption(
-                "Merge-area method",
-                "capacity-manual merge segment: P_FM, v12 with the lane-distribution checks, influence-area"
-                " density, LOS and capacity checks" + ("; lane 5 flow taken off first" if site.lanes == 5 else ""),
-                "Highway Capacity Manual 6th/7th ed., chapter 14 (equations as reproduced in REFERENCES.md section 6, CONFIRMED)",
-            ),
-            Assumption(
-                "Acceleration length for the merge-area check",
-                f"lane plus taper, {show(site.lane_length + site.taper_length, 'length', 'si')}",
-                "the manual's L_A includes the taper; the policy-table length does not (converted here)",
-            ),
-            Assumption(
-                "Demand in passenger cars",
-                f"PHF {m.peak_hour_factor:.2f}; mainline heavy vehicles {m.mainline_heavy_vehicles:.0%} at E_T "
-                f"{2.0 if m.terrain == 'level' else 3.0:.1f} ({m.terrain})",
-                "HCM f_HV = 1/(1 + P_T (E_T - 1)); E_T 2.0 level, 3.0 rolling (REFERENCES.md section 6)",
-            ),
-            Assumption(
-                "Heavy ramp vehicles on the grade",
-                "E_T times stream free-flow speed over the vehicle's speed at the end of the lane (at least E_T)",
-                "assumption: speed-ratio equivalent standing in for the manual's specific-grade tables (not at hand)",
-            ),
-            Assumption(
-                "Queue in breakdown",
-                f"triangular flow-density relation, capacity per lane from the manual, jam density "
-                f"{m.jam_density * 1000:.0f} veh/km per lane; ramp demand served first; "
-                "demand profile " + ", ".join(f"{d / 60:.0f} min at {s:.0%}" for d, s in m.demand_profile),
-                "kinematic-wave theory (Lighthill and Whitham 1955; Richards 1956); jam density common practice",
-            ),
-        ]
-    if policy is not None:
-        items.append(Assumption("Policy table", policy.table.title, f"{site.policy_choice}; {policy.table.source}"))
-        items.append(Assumption("Policy interpolation", "see rule", policy.table.interpolation))
-    return tuple(items)
-
-
-def _before_the_nose(site: Site, results: tuple[VehicleAssessment, ...], initial: float) -> Assumption:
-    """Speed gained between the end of the controlling curve and the convergence point, and whether it counts."""
-    before = show(site.convergence, "length", "si")
-    if site.acceleration_from == "convergence":
-        return Assumption(
-            "Speed gained before the convergence point",
-            f"none counted: every vehicle is taken at {show(initial, 'speed', 'si')} at the convergence point "
-            f"({before} of ramp before it ignored)",
-            "site criterion acceleration_from: convergence (policy-strict, as the policy tables assume)",
-        )
-    gained = "; ".join(
-        f"{r.vehicle.id} {show(r.initial_speed, 'speed', 'si')} to {show(r.speed_at_convergence, 'speed', 'si')}"
-        for r in results
-    )
-    return Assumption(
-        "Speed gained before the convergence point",
-        f"credited over the {before} of ramp before the nose: {gained}",
-        "the vehicle accelerates along the ramp (default); the policy tables assume the initial speed at the "
-        "convergence point: set criteria.acceleration_from: convergence for that reading",
-    )
-
-
-def _behaviour_assumption(site: Site) -> Assumption:
-    """Which merge behaviour the probability assumes, in plain words, with its sources."""
-    allowed = (
-        f"merging allowed past the convergence point at {show(site.gaps.minimum_merge_speed, 'speed', 'si')} or more; "
-    )
-    b = site.gaps.behaviour
-    if b is None:
-        return Assumption(
-            "Merge behaviour (classic model)",
-            allowed + f"each driver waits for a gap of at least their critical gap to drift past at "
-            f"{show(site.gaps.search_speed, 'speed', 'si')} relative speed or more, holds merge speed, never forces in",
-            "Drew (1968), Traffic Flow Theory and Control, ch. 9 (from memory); moving-observer relation",
-        )
-    sources = "; ".join(f"{name.replace('_', ' ')}: {text}" for name, text in SOURCES.items())
-    return Assumption("Merge behaviour (active model)", allowed + plain_words(b), sources)
-
-
-def _headway_text(site: Site) -> str:
-    g = site.gaps
-    flow = f"{site.adjacent_lane_flow * 3600:.0f} veh/h"
-    if g.headway_model == "exponential":
-        return f"negative exponential at {flow}"
-    free = "Tanner's 1 - Delta q" if g.free_fraction is None else f"{g.free_fraction:.2f}"
-    return f"Cowan M3 at {flow}, minimum headway {g.min_headway:.1f} s, free share {free}"
-
-
-def summary_sentence(assessment: SiteAssessment, system: Literal["si", "us"]) -> str:
-    """The one sentence a reader needs first."""
-    g = assessment.governing
-    site = assessment.site
-    lane = show(site.available_length, "length", system)
-    if assessment.performance_verdict == "meets":
-        return (
-            f"All design vehicles reach merge speed and find a gap within the {lane} provided; {g.vehicle.id} "
-            f"governs, needing {show(g.length_needed, 'length', system)}."
-        )
-    if g.verdict == "cannot-reach":
-        return (
-            f"{g.vehicle.id} never reaches its merge speed of {show(g.merge_speed, 'speed', system)}: its crawl speed is "
-            f"{show(g.crawl_speed, 'speed', system)}, and it leaves the {lane} lane at "
-            f"{show(g.speed_at_taper_start, 'speed', system)}, {show(g.speed_differential_at_lane_end, 'speed', system)} "
-            f"below the stream."
-        )
-    merged = f"{g.merge.by_lane_end:.0%} of them find a gap by the end of the lane"
-    lane_end = site.convergence + site.available_length
-    if g.length_needed is None and (g.merge.eligible_station is None or g.merge.eligible_station > lane_end):
-        return (
-            f"{g.vehicle.id} is still below the minimum merge speed of {show(site.gaps.minimum_merge_speed, 'speed', system)} "
-            f"at the end of the {lane} lane (it leaves the lane at {show(g.speed_at_taper_start, 'speed', system)} and needs "
-            f"{show(g.required_length, 'length', system)} to reach its merge speed), so it can only force its way in."
-        )
-    if g.length_needed is None:
-        return (
-            f"{g.vehicle.id} reaches merge speed but rarely finds a gap: {merged}, short of the "
-            f"{g.merge.reliability:.0%} target even on a much longer lane."
-        )
-    return (
-        f"The lane is {show(g.deficit, 'length', system)} short for {g.vehicle.id}: it needs "
-        f"{show(g.length_needed, 'length', system)} against {lane} provided "
-        f"({show(g.required_length, 'length', system)} to reach merge speed, "
-        f"{show(g.merge.length_for_reliability, 'length', system)} for a {g.merge.reliability:.0%} chance of a gap); "
-        f"{merged}."
-    )

@@ -62,7 +62,8 @@ _SCAN_SPEED_MAX = 80.0  # m/s: equilibrium speeds are searched up to this
 _SCAN_POINTS = 161  # 0.5 m/s apart
 _RECHECK = 500.0  # m: the crawl speed is found again after this much climbing (the air thins)
 _SETTLED = 0.02  # relative closeness to the crawl speed at which integration stops
-_TOLERANCE = np.array([[1e-8], [1e-9]])  # relative and absolute: on u [m^2/s^2], on t [s]
+TOLERANCE = np.array([[1e-8], [1e-9]])
+"""Relative and absolute tolerance of the step-size control: on u = v^2/2 [m^2/s^2] and on t [s]."""
 _SAFETY, _MIN_FACTOR, _MAX_FACTOR = 0.9, 0.2, 10.0  # step-size control (Hairer et al. II.4)
 # Dormand-Prince 5(4) (Dormand and Prince 1980; Hairer, Norsett and Wanner 1993, Table II.5.2): nodes _C,
 # stage weights _A, 5th-order weights _B, error weights _E (5th minus 4th order, with the FSAL 7th stage) and
@@ -454,7 +455,7 @@ class _State:
         x, y = self.x[self.live], self.y[:, self.live]
         _, edge = self._segment_edges(x)
         f = self._rhs(x, y, edge)
-        scale = _TOLERANCE + _TOLERANCE * np.abs(y)
+        scale = TOLERANCE + TOLERANCE * np.abs(y)
         d0 = np.sqrt(np.mean((y / scale) ** 2, axis=0))
         d1 = np.sqrt(np.mean((f / scale) ** 2, axis=0))
         h0 = np.where((d0 < 1e-5) | (d1 < 1e-5), 1e-6, 0.01 * d0 / np.maximum(d1, 1e-300))
@@ -475,7 +476,7 @@ class _State:
         y_new = y + h * np.einsum("s,s...->...", _B, k[:6])
         x_new = np.where(h >= limit - x, limit, x + h)  # land exactly on breakpoints and stops
         k[6] = self._rhs(x_new, y_new, edge)
-        scale = _TOLERANCE + _TOLERANCE * np.maximum(np.abs(y), np.abs(y_new))
+        scale = TOLERANCE + TOLERANCE * np.maximum(np.abs(y), np.abs(y_new))
         norm = np.sqrt(np.mean((h * np.einsum("s,s...->...", _E, k) / scale) ** 2, axis=0))
         accept = norm < 1.0
         failed = ~np.isfinite(norm) | (h < 1e-12)  # a model returning nonsense: stop that vehicle where it is

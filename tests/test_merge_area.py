@@ -10,6 +10,7 @@ import pytest
 
 from mergecheck.assessment import assess
 from mergecheck.merge_area import level_of_service, merge_area, merge_influence_share, passenger_car_flow
+from mergecheck.narrative import assumptions
 from mergecheck.shockwave import Greenshields, Triangular, queue_history, shock_speed
 from mergecheck.units import parse_quantity
 
@@ -176,7 +177,7 @@ def test_equations_outside_their_range_are_not_applied(cli: Any, make_site: Any)
     assessment = assess(light)
     assert assessment.merge_area is None
     assert assessment.merge_area_not_applied.startswith("Eq. 14-22 gives an influence-area density of -12.6")
-    (note,) = [a for a in assessment.assumptions if a.name == "Merge-area method"]
+    (note,) = [a for a in assumptions(assessment) if a.name == "Merge-area method"]
     assert note.value.startswith("not applied: Eq. 14-22")
 
 

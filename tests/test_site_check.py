@@ -9,6 +9,7 @@ from typing import Any
 import pytest
 
 from mergecheck.assessment import assess
+from mergecheck.narrative import assumptions
 from mergecheck.policy import load_policy, policy_minimum
 from mergecheck.site import load_site
 from mergecheck.trajectory import accelerate
@@ -212,7 +213,7 @@ def test_the_table_follows_the_units_of_the_design_speed_unless_named(make_site:
     in_kmh = assess(make_site(mainline__design_speed="120 km/h"))
     assert in_kmh.site.policy_file == "metric" and in_kmh.policy is not None
     assert in_kmh.policy.minimum_length == pytest.approx(410.0)
-    chosen = next(a for a in in_kmh.assumptions if a.name == "Policy table").source
+    chosen = next(a for a in assumptions(in_kmh) if a.name == "Policy table").source
     assert "metric table, as the design speed is in metric units" in chosen
     named_us = assess(make_site(mainline__design_speed="120 km/h", policy="us"))
     assert named_us.site.policy_file == "us" and named_us.policy is not None

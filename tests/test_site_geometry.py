@@ -8,6 +8,7 @@ import pytest
 
 from mergecheck.assessment import assess
 from mergecheck.errors import InputError
+from mergecheck.narrative import assumptions
 
 
 @pytest.mark.parametrize("vehicle", ["passenger-car", "bus", "semitrailer-design"])
@@ -54,14 +55,14 @@ def test_speed_gained_before_the_nose_is_stated_and_the_policy_strict_reading_of
     strict = assess(
         make_site(geometry__curve_end_to_convergence="300 m", criteria={"acceleration_from": "convergence"})
     )
-    assumption = next(a for a in free.assumptions if a.name == "Speed gained before the convergence point")
+    assumption = next(a for a in assumptions(free) if a.name == "Speed gained before the convergence point")
     assert "credited over the 300 m" in assumption.value
     car, strict_car = free.vehicles[0], strict.vehicles[0]
     assert car.speed_at_convergence > car.initial_speed + 3.0  # m/s gained before the nose
     assert strict_car.speed_at_convergence == pytest.approx(strict_car.initial_speed)
     assert strict_car.required_length is not None and car.required_length is not None
     assert strict_car.required_length > car.required_length + 50.0
-    assert "policy-strict" in next(a for a in strict.assumptions if a.name.startswith("Speed gained")).source
+    assert "policy-strict" in next(a for a in assumptions(strict) if a.name.startswith("Speed gained")).source
 
 
 def test_the_default_operating_speed_is_the_policys_running_speed(make_site: Any) -> None:
@@ -75,7 +76,7 @@ def test_the_default_operating_speed_is_the_policys_running_speed(make_site: Any
     data_free = {"design_speed": "100 km/h", "lanes": 3, "adjacent_lane_flow": "600 veh/h"}
     default = assess(make_site(mainline=data_free, geometry__lane_length="300 m"))
     assert default.site.operating_speed == pytest.approx(82 / 3.6, rel=1e-9)
-    basis = next(a for a in default.assumptions if a.name == "Mainline operating speed at the merge").source
+    basis = next(a for a in assumptions(default) if a.name == "Mainline operating speed at the merge").source
     assert "average running speed" in basis and "give mainline.operating_speed" in basis
     in_mph = assess(make_site(mainline={**data_free, "design_speed": "60 mph"}, geometry__lane_length="300 m"))
     assert in_mph.site.operating_speed == pytest.approx(52 * 0.44704, rel=1e-9)

@@ -10,8 +10,9 @@ from __future__ import annotations
 import jinja2
 
 from .. import __version__
-from ..assessment import SiteAssessment, summary_sentence
+from ..assessment import SiteAssessment
 from ..exception import DesignException
+from ..narrative import assumptions, summary_sentence
 from ..units import UnitSystem, show
 from . import plots
 from .wording import clearing, merge_behaviour, mitigation_change, slowing_notes, verdict_bases
@@ -42,6 +43,7 @@ def site_html(assessment: SiteAssessment, system: UnitSystem, exception: DesignE
         a=assessment,
         site=assessment.site,
         summary=summary_sentence(assessment, system),
+        assumptions=assumptions(assessment),
         figures=figures,
         exception=exception,
         fmt=fmt,

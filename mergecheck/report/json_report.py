@@ -14,6 +14,7 @@ from ..critical_gap_estimation import CriticalGapEstimate
 from ..figures import VehicleFigures
 from ..merge_area import MergeArea
 from ..merge_operations import MergeOperations
+from ..narrative import assumptions, summary_sentence
 from ..results import AccelerationRun, GapFigures
 from ..shockwave import QueueGrowth
 from ..sweep import Sweep
@@ -90,7 +91,7 @@ def site_json(assessment: SiteAssessment) -> dict[str, Any]:
         "policy_basis": {"verdict": assessment.policy_verdict, "reason": assessment.policy_reason},
         "performance_basis": {"verdict": assessment.performance_verdict},
         "governing_vehicle": assessment.governing.vehicle.id,
-        "summary": assessment.summary,
+        "summary": summary_sentence(assessment, "si"),
         "mainline": {
             "design_speed_m_s": _number(site.design_speed),
             "operating_speed_m_s": _number(site.operating_speed),
@@ -165,7 +166,7 @@ def site_json(assessment: SiteAssessment) -> dict[str, Any]:
         },
         "merge_area": merge_area_json(assessment.merge_area),
         "merge_area_not_applied": assessment.merge_area_not_applied or None,
-        "assumptions": [{"name": a.name, "value": a.value, "source": a.source} for a in assessment.assumptions],
+        "assumptions": [{"name": a.name, "value": a.value, "source": a.source} for a in assumptions(assessment)],
         "cautions": list(assessment.cautions),
     }
 

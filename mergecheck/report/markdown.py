@@ -5,10 +5,11 @@ from __future__ import annotations
 import html
 import re
 
-from ..assessment import SiteAssessment, summary_sentence
+from ..assessment import SiteAssessment
 from ..batch import BatchResult, BatchSummary
 from ..cautions import CAUTIONS
 from ..exception import DesignException
+from ..narrative import assumptions, summary_sentence
 from ..units import UnitSystem, number, show, unit_symbol
 from .table_rows import batch_row
 from .wording import clearing, merge_behaviour, mitigation_change, slowing_notes, verdict_bases
@@ -175,7 +176,7 @@ def site_markdown(assessment: SiteAssessment, system: UnitSystem, exception: Des
     if exception is not None:
         lines += _exception_lines(assessment, exception, system)
     lines += ["", "## Assumptions", "", "| Item | Value | Source |", "|---|---|---|"]
-    lines += [f"| {_cell(a.name)} | {_cell(a.value)} | {_cell(a.source)} |" for a in assessment.assumptions]
+    lines += [f"| {_cell(a.name)} | {_cell(a.value)} | {_cell(a.source)} |" for a in assumptions(assessment)]
     lines += ["", "## Cautions", ""]
     lines += [f"- {c}" for c in assessment.cautions]
     return "\n".join(lines) + "\n"

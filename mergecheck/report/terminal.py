@@ -7,13 +7,14 @@ from rich.console import Group, RenderableType
 from rich.table import Table
 from rich.text import Text
 
-from ..assessment import SiteAssessment, summary_sentence
+from ..assessment import SiteAssessment
 from ..batch import BatchResult, BatchSummary
 from ..cautions import CAUTIONS
 from ..critical_gap_estimation import CriticalGapEstimate
 from ..figures import VehicleFigures
 from ..merge_area import MergeArea
 from ..merge_operations import MergeOperations
+from ..narrative import assumptions, summary_sentence
 from ..results import AccelerationRun, GapFigures
 from ..shockwave import QueueGrowth
 from ..sweep import Sweep
@@ -254,13 +255,13 @@ def site_view(assessment: SiteAssessment, system: UnitSystem) -> RenderableType:
             parts.append(Text(f"Policy caution: {policy.table.caution}", style="yellow"))
     if assessment.merge_area is not None:
         parts += [Text(""), merge_area_view(assessment.merge_area, system)]
-    assumptions = Table(title="Assumptions", title_justify="left", show_lines=False)
-    assumptions.add_column("Item", no_wrap=False, ratio=2)
-    assumptions.add_column("Value", ratio=2)
-    assumptions.add_column("Source", ratio=5)
-    for a in assessment.assumptions:
-        assumptions.add_row(a.name, a.value, a.source)
-    parts += [Text(""), assumptions, cautions_block(assessment.cautions)]
+    listed = Table(title="Assumptions", title_justify="left", show_lines=False)
+    listed.add_column("Item", no_wrap=False, ratio=2)
+    listed.add_column("Value", ratio=2)
+    listed.add_column("Source", ratio=5)
+    for a in assumptions(assessment):
+        listed.add_row(a.name, a.value, a.source)
+    parts += [Text(""), listed, cautions_block(assessment.cautions)]
     return Group(*parts)
 
 
