@@ -9,8 +9,9 @@ import time
 
 import numpy as np
 
-from mergecheck.gap_acceptance import CriticalGap, not_merged, simulate_merges
+from mergecheck.critical_gaps import CriticalGap
 from mergecheck.headways import CowanM3
+from mergecheck.renewal import not_merged, simulate_merges
 
 STREAMS = [CowanM3.tanner(q / 3600, 1.0) for q in (600, 1000, 1400, 1800)]
 GAP = CriticalGap(3.0, 0.8)

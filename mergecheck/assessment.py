@@ -11,7 +11,7 @@ required acceleration length is measured as the policy tables measure it:
 with x_merge the station where the vehicle reaches its merge speed (the
 operating speed less the merge speed differential) and x_cp the convergence
 point. Reaching merge speed is half the job: the driver must also find a gap
-in the adjacent lane (:mod:`mergecheck.gap_acceptance`), and the length for
+in the adjacent lane (:mod:`mergecheck.merge_reliability`), and the length for
 the target merge reliability L_rel is where the probability of having merged
 reaches the target. The vehicle meets the check when
 max(L_req, L_rel) <= L_avail (the lane length plus any taper credit); it is
@@ -37,16 +37,11 @@ import numpy as np
 from numpy.typing import NDArray
 
 from .cautions import CAUTIONS
-from .gap_acceptance import (
-    CriticalGap,
-    MergeReliability,
-    MergeSetting,
-    MonteCarloCheck,
-    merge_reliabilities,
-    monte_carlo_check,
-)
+from .critical_gaps import CriticalGap
 from .headways import HeadwayModel, headway_model
 from .merge_operations import MergeOperations, merge_operations
+from .merge_reliability import MergeReliability, MergeSetting, merge_reliabilities
+from .monte_carlo import MonteCarloCheck, monte_carlo_check
 from .policy import PolicyTable, PolicyValue, initial_speed_for, load_policy, policy_minimum
 from .site import Site, SiteVehicle
 from .trajectory import Run, Trajectory, accelerate_many, speeds_at

@@ -19,8 +19,8 @@ from typing import Literal
 
 from pydantic import BaseModel, ConfigDict, Field
 
+from .critical_gaps import CriticalGap, default_critical_gaps
 from .errors import InputError
-from .gap_acceptance import CriticalGap, default_critical_gaps
 from .inputs import GradePoint, build_profile, read_yaml, validated
 from .limits import CRITICAL_GAP, ELEVATION, LANE_FLOW, MAINLINE_SPEED, MIN_HEADWAY
 from .merge_behaviour import MergeBehaviour

@@ -11,18 +11,12 @@ import pytest
 from scipy import integrate, stats
 
 from mergecheck.assessment import assess
-from mergecheck.gap_acceptance import (
-    CriticalGap,
-    MergeSetting,
-    merge_reliabilities,
-    merge_reliability,
-    not_merged,
-    simulate_merges,
-    solve_renewals,
-    stream_time,
-)
+from mergecheck.critical_gaps import CriticalGap
 from mergecheck.headways import CowanM3, Exponential
+from mergecheck.merge_reliability import MergeSetting, merge_reliabilities, merge_reliability
+from mergecheck.renewal import not_merged, simulate_merges, solve_renewals
 from mergecheck.site import load_site
+from mergecheck.stream_time import stream_time
 
 CAR = CriticalGap(3.0, 0.8)
 TAU = np.array([0.0, 0.5, 1.0, 2.0, 4.0, 8.0, 16.0, 32.0])

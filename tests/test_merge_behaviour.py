@@ -10,9 +10,10 @@ import numpy as np
 import pytest
 
 from mergecheck.assessment import SiteAssessment, assess
-from mergecheck.gap_acceptance import CriticalGap, not_merged
+from mergecheck.critical_gaps import CriticalGap
 from mergecheck.headways import CowanM3
 from mergecheck.merge_behaviour import CELL, MergeBehaviour, Rules, rule_along, simulate, solve
+from mergecheck.renewal import not_merged
 
 
 def positions(result: SiteAssessment) -> tuple[float, float, float]:
@@ -61,7 +62,7 @@ def test_recursion_agrees_with_a_monte_carlo_of_the_same_behaviour(flow: float) 
 
 def test_without_yielding_pressure_or_speed_adjustment_the_recursion_is_the_classic_renewal() -> None:
     """Limiting case: constant rule (gap >= t_c, whole first gap, no yield, no closing term) reproduces the
-    classic model's renewal solution (mergecheck.gap_acceptance.not_merged, damped FFT) within 3e-3."""
+    classic model's renewal solution (mergecheck.renewal.not_merged, damped FFT) within 3e-3."""
     headways = CowanM3.tanner(1200 / 3600, 1.0)
     gap = CriticalGap(3.0, 0.8)
     n = 200
@@ -215,9 +216,9 @@ def test_a_large_monte_carlo_runs_in_batches_and_agrees(make_site: Any, monkeypa
     """Drivers are drawn a batch at a time (memory bounded whatever the count): with batches of 7,000, 40,000
     drivers are reported in six steps summing to the count, the result is reproducible under its seed, and it
     agrees with the analytic figures as the one-batch run does (4 s.e. + 0.006)."""
-    import mergecheck.gap_acceptance as gap_acceptance
+    import mergecheck.monte_carlo as monte_carlo
 
-    monkeypatch.setattr(gap_acceptance, "MONTE_CARLO_BATCH", 7_000)
+    monkeypatch.setattr(monte_carlo, "MONTE_CARLO_BATCH", 7_000)
     site = make_site(ramp__vehicles={"passenger-car": 1.0})
     steps: list[int] = []
     first = assess(site, monte_carlo=40_000, progress=steps.append).vehicles[0]

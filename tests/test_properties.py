@@ -9,9 +9,10 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from mergecheck.acceleration import LinearDecreasing
-from mergecheck.gap_acceptance import CriticalGap, not_merged
+from mergecheck.critical_gaps import CriticalGap
 from mergecheck.headways import CowanM3
 from mergecheck.profile import VerticalProfile
+from mergecheck.renewal import not_merged
 from mergecheck.trajectory import accelerate
 
 

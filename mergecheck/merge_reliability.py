@@ -1,0 +1,403 @@
+"""Merge reliability: the probability of finding an acceptable gap along the lane, for every design vehicle
+of every site at once.
+
+Two behaviours give their results in the same :class:`MergeReliability`: the active model of
+:mod:`mergecheck.merge_behaviour` (the default for a site) and the classic model of
+:mod:`mergecheck.renewal`. Stream time along each vehicle's path comes from :mod:`mergecheck.stream_time`,
+critical gaps from :mod:`mergecheck.critical_gaps`; the seeded simulation that checks the result is in
+:mod:`mergecheck.monte_carlo`.
+"""
+
+from __future__ import annotations
+
+import functools
+from collections.abc import Sequence
+from dataclasses import dataclass
+from typing import Literal, NamedTuple
+
+import numpy as np
+from numpy.typing import NDArray
+
+from .critical_gaps import ACTIVE_NODES, CriticalGap
+from .headways import HeadwayModel, mean_wait
+from .merge_behaviour import CELL, MergeBehaviour, Rules, rule_along, solve
+from .renewal import FIRST_REACH, solve_renewals
+from .stream_time import stream_times
+
+FloatArray = NDArray[np.float64]
+
+
+@functools.lru_cache(maxsize=64)
+def stopped_wait(headways: HeadwayModel, critical_gap: CriticalGap) -> float:
+    """Mean wait of a stopped driver for a gap, mixed over drivers (:func:`mergecheck.headways.mean_wait`). [s]"""
+    gaps, weights = critical_gap.nodes()
+    return float(np.einsum("k,k->", weights, mean_wait(headways, gaps)))
+
+
+@dataclass(frozen=True, slots=True)
+class MergeCurve:
+    """The probability of having merged along the path."""
+
+    station: FloatArray
+    """Stations along the path. [m]"""
+    probability: FloatArray
+    """Probability of having merged by each station. [-]"""
+    stream_time: FloatArray
+    """tau(x) of Eq. (1) at each station (0 before the eligible station). [s]"""
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class MergeReliability:
+    """How likely one design vehicle is to complete its merge, and what happens to those who do not."""
+
+    curve: MergeCurve | None
+    """The probability along the path; None once dropped (batch results keep the figures only)."""
+    stream_time_at_lane_end: float
+    stream_time_at_taper_end: float
+    """tau of Eq. (1) at the end of the lane and of the taper. [s]"""
+    eligible_station: float | None
+    """Where merging may begin; None if the vehicle never gets within the minimum merge speed. [m]"""
+    by_lane_end: float
+    by_taper_end: float
+    reliability: float
+    """Target probability of merging by the end of the lane. [-]"""
+    length_for_reliability: float | None
+    """Lane length (from the convergence point) giving the target probability; None beyond the search range. [m]"""
+    forced_merges_per_h: float
+    """Vehicles of this class merging in the taper. [veh/h]"""
+    stops_per_h: float
+    """Vehicles of this class reaching the end of the taper without merging. [veh/h]"""
+    mean_stopped_wait: float
+    """Mean wait of a stopped vehicle for a gap (from-stop critical gap). [s]"""
+    model: Literal["active", "classic"] = "classic"
+    """Which merge behaviour the probability assumes (:mod:`mergecheck.merge_behaviour` or this module's)."""
+    unhurried: MergeCurve | None = None
+    """Active model: the probability on a lane imagined long enough, without the lane-end pressure and forced
+    merges; the length for the target reliability is read from it. None for the classic model or once dropped."""
+    check: ActiveCheck | None = None
+    """Active model: what a Monte Carlo of the same behaviour needs; None for the classic model or once dropped."""
+
+
+@dataclass(frozen=True, slots=True)
+class ActiveCheck:
+    """The site rule of one vehicle under the active model, and where a merge decided at a station is complete."""
+
+    rules: Rules
+    """One row: the rule at the site (lane-end pressure, forced merges)."""
+    station: FloatArray
+    crossing: FloatArray
+    """Station where a lane change decided at each of ``station`` is half done. [m]"""
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class MergeSetting:
+    """What one design vehicle's merge probability depends on besides its speeds (SI units).
+
+    See :func:`merge_reliability` for each field.
+    """
+
+    convergence: float
+    lane_end: float
+    taper_end: float
+    stream_speed: float
+    merge_speed: float
+    minimum_merge_speed: float
+    search_speed: float
+    headways: HeadwayModel | None
+    critical_gap: CriticalGap
+    stop_critical_gap: CriticalGap
+    reliability: float
+    flow: float
+    search_length: float = 3000.0
+    behaviour: MergeBehaviour | None = None
+    """The active model's parameters; None for the classic model."""
+    taper_start: float | None = None
+    """End of the full-width lane, where the lane-end pressure points (active model); default ``lane_end``. [m]"""
+
+
+def merge_reliability(
+    station: FloatArray,
+    speed: FloatArray,
+    *,
+    convergence: float,
+    lane_end: float,
+    taper_end: float,
+    stream_speed: float,
+    merge_speed: float,
+    minimum_merge_speed: float,
+    search_speed: float,
+    headways: HeadwayModel | None,
+    critical_gap: CriticalGap,
+    stop_critical_gap: CriticalGap,
+    reliability: float,
+    flow: float,
+    search_length: float = 3000.0,
+    behaviour: MergeBehaviour | None = None,
+    taper_start: float | None = None,
+) -> MergeReliability:
+    """Merge probability along the lane for one design vehicle (module docstring, Eqs. 1-3; with
+    ``behaviour``, the active model of :mod:`mergecheck.merge_behaviour`).
+
+    The trajectory is extended beyond its last sample at its last speed (the
+    vehicle has then settled at its crawl speed or holds its merge speed), up
+    to ``search_length`` past the convergence point, to find the lane length
+    that gives the target reliability. The returned curve runs as far as the
+    probability was solved: past the end of the taper and FIRST_REACH of
+    stream time, and on to the end of the search when the target is not met
+    by then. ``headways`` None means an empty adjacent lane: every vehicle
+    merges where it becomes eligible.
+    """
+    setting = MergeSetting(
+        convergence=convergence,
+        lane_end=lane_end,
+        taper_end=taper_end,
+        stream_speed=stream_speed,
+        merge_speed=merge_speed,
+        minimum_merge_speed=minimum_merge_speed,
+        search_speed=search_speed,
+        headways=headways,
+        critical_gap=critical_gap,
+        stop_critical_gap=stop_critical_gap,
+        reliability=reliability,
+        flow=flow,
+        search_length=search_length,
+        behaviour=behaviour,
+        taper_start=taper_start,
+    )
+    return merge_reliabilities([station], [speed], [setting])[0]
+
+
+def merge_reliabilities(
+    stations: Sequence[FloatArray], speeds: Sequence[FloatArray], settings: Sequence[MergeSetting]
+) -> list[MergeReliability]:
+    """:func:`merge_reliability` for many vehicles at once, one row each; rows do not interact.
+
+    Rows are padded to a common length by repeating their last sample (zero-length segments add no
+    stream time); rows on the same stream share a renewal solution (:func:`solve_renewals`).
+    """
+    rows: list[tuple[FloatArray, FloatArray]] = []
+    for station, speed, setting in zip(stations, speeds, settings, strict=True):
+        station, speed = np.asarray(station, dtype=float), np.asarray(speed, dtype=float)
+        far = setting.convergence + setting.search_length
+        if station[-1] < far:
+            station, speed = np.append(station, far), np.append(speed, speed[-1])
+        rows.append((station, speed))
+    count = np.array([x.size for x, _ in rows])
+    station = np.empty((len(rows), int(count.max())))
+    speed = np.empty_like(station)
+    for r, (x, v) in enumerate(rows):
+        station[r, : x.size], station[r, x.size :] = x, x[-1]
+        speed[r, : v.size], speed[r, v.size :] = v, v[-1]
+
+    def column(name: str) -> FloatArray:
+        return np.array([getattr(s, name) for s in settings], dtype=float)
+
+    convergence, lane_end, taper_end = column("convergence"), column("lane_end"), column("taper_end")
+    reliability, flow = column("reliability"), column("flow")
+    x_a = _eligible_stations(station, speed, count, convergence, column("minimum_merge_speed"))
+    eligible = ~np.isnan(x_a)
+    start = np.where(eligible, x_a, np.inf)
+    tau = stream_times(station, speed, column("stream_speed"), column("search_speed"), start, column("merge_speed"))
+    tau_taper_end = _at(station, tau, count, taper_end)
+    merged = np.zeros_like(station)
+    merged[eligible & np.array([s.headways is None for s in settings])] = 1.0
+    solved = count.copy()
+    last = tau[np.arange(len(settings)), count - 1]
+    active = [r for r, s in enumerate(settings) if s.behaviour is not None and s.headways is not None]
+    unhurried_rows, checks = _active_curves(station, speed, count, x_a, settings, active)
+    # classic: solve past the taper end (and at least FIRST_REACH); on to the search's end only for rows still short
+    pending = {
+        r: min(float(last[r]), max(float(tau_taper_end[r]), FIRST_REACH))
+        for r, s in enumerate(settings)
+        if eligible[r] and s.headways is not None and s.behaviour is None
+    }
+    while pending:
+        asked = list(pending)
+        answers = solve_renewals([(_stream(settings[r]), settings[r].critical_gap, pending[r]) for r in asked])
+        pending = {}
+        for r, (renewal, which) in zip(asked, answers, strict=True):
+            short = renewal.values[which, -1] > 1.0 - settings[r].reliability
+            if short and renewal.reach < last[r]:
+                pending[r] = float(last[r])
+                continue
+            solved[r] = int(np.searchsorted(tau[r, : count[r]], renewal.reach, side="right"))
+            merged[r] = 1.0 - renewal.not_merged(tau[r], which)
+    for r, (unhurried_p, unhurried_n, unhurried_tau) in unhurried_rows.items():
+        merged[r], solved[r], tau[r] = unhurried_p, unhurried_n, unhurried_tau
+    probability = np.where(station >= start[:, None], merged, 0.0)
+    probability = np.maximum.accumulate(np.clip(probability, 0.0, 1.0), axis=1)
+    length = _first_reaching(station, probability, solved, reliability) - convergence
+    unhurried = {
+        r: MergeCurve(*(a[r, : solved[r]].copy() for a in (station, probability, tau))) for r in unhurried_rows
+    }
+    for r, check in checks.items():  # the site curve of the active model: lane-end pressure and forced merges
+        probability[r] = np.interp(station[r], check.crossing, check.site)
+        solved[r] = int(np.searchsorted(station[r, : count[r]], taper_end[r], side="right"))
+        tau[r] = check.tau
+    by_lane_end = _at(station, probability, solved, lane_end)
+    by_taper_end = _at(station, probability, solved, taper_end)
+    tau_lane_end = _at(station, tau, solved, lane_end)
+    results = []
+    for r, setting in enumerate(settings):
+        n = solved[r]
+        headways = setting.headways
+        results.append(
+            MergeReliability(
+                curve=MergeCurve(station[r, :n], probability[r, :n], tau[r, :n]),
+                stream_time_at_lane_end=float(tau_lane_end[r]),
+                stream_time_at_taper_end=float(tau_taper_end[r]),
+                eligible_station=float(x_a[r]) if eligible[r] else None,
+                by_lane_end=float(by_lane_end[r]),
+                by_taper_end=float(by_taper_end[r]),
+                reliability=setting.reliability,
+                length_for_reliability=None if np.isnan(length[r]) else max(0.0, float(length[r])),
+                forced_merges_per_h=float(flow[r] * 3600 * max(0.0, by_taper_end[r] - by_lane_end[r])),
+                stops_per_h=float(flow[r] * 3600 * (1.0 - by_taper_end[r])),
+                mean_stopped_wait=0.0 if headways is None else stopped_wait(headways, setting.stop_critical_gap),
+                model="classic" if setting.behaviour is None else "active",
+                unhurried=unhurried.get(r),
+                check=None if r not in checks else ActiveCheck(checks[r].rules, checks[r].decided, checks[r].crossing),
+            )
+        )
+    return results
+
+
+class _ActiveRow(NamedTuple):
+    """One vehicle's inputs to the active model: its stations, where a decision there is complete, and the
+    stream time and acceleration rule of its site curve and its unhurried curve."""
+
+    row: int
+    station: FloatArray
+    crossing: FloatArray
+    forcing_from: float
+    tau_site: FloatArray
+    site_rule: tuple[FloatArray, ...]
+    tau_free: FloatArray
+    free_rule: tuple[FloatArray, ...]
+
+
+@dataclass(frozen=True, slots=True)
+class _SiteCurve:
+    rules: Rules
+    decided: FloatArray
+    crossing: FloatArray
+    site: FloatArray
+    """Probability of having merged by each of ``decided`` (decision stations), to be read at ``crossing``."""
+    tau: FloatArray
+
+
+def _active_curves(
+    station: FloatArray,
+    speed: FloatArray,
+    count: NDArray[np.intp],
+    x_a: FloatArray,
+    settings: Sequence[MergeSetting],
+    rows: list[int],
+) -> tuple[dict[int, tuple[FloatArray, int, FloatArray]], dict[int, _SiteCurve]]:
+    """The active model (:mod:`mergecheck.merge_behaviour`) for the given rows: per row, the unhurried
+    probability at its stations (shifted to where the lane change is half done) with the stations solved,
+    and the site curve."""
+    if not rows:
+        return {}, {}
+    built: list[_ActiveRow] = []
+    for r in rows:
+        s = settings[r]
+        b, flow = s.behaviour, _stream(s).flow
+        assert b is not None
+        x, keep = np.unique(station[r, : count[r]], return_index=True)
+        v = speed[r, : count[r]][keep]
+        a = v * np.gradient(v, x) if x.size > 1 else np.zeros_like(x)  # the vehicle's own acceleration a(x)
+        crossing = x + 0.5 * b.lane_change_time * np.minimum(v, s.merge_speed)
+        lane_end = s.lane_end if s.taper_start is None else s.taper_start
+
+        # a vehicle still below the minimum merge speed at the end of the lane forces in there
+        forcing_from = lane_end if np.isnan(x_a[r]) else min(float(x_a[r]), lane_end)
+
+        rule = functools.partial(
+            rule_along, x, v, a, stream_speed=s.stream_speed, merge_speed=s.merge_speed, flow=flow,
+            lane_end=lane_end, taper_end=s.taper_end, behaviour=b,
+        )  # fmt: skip
+        unhurried_from = float(x[-1]) if np.isnan(x_a[r]) else float(x_a[r])  # never eligible: nothing solved
+        at_site = rule(eligible=forcing_from, until=s.taper_end, pressured=True)
+        unhurried = rule(eligible=unhurried_from, until=float(x[-1]), pressured=False)
+        built.append(_ActiveRow(r, x, crossing, forcing_from, *at_site, *unhurried))
+    streams = [_stream(settings[r]) for r in rows]
+    nodes = [settings[r].critical_gap.nodes(ACTIVE_NODES) for r in rows]
+    size = max(n.size for n, _ in nodes)
+    gaps = np.array([np.pad(n, (0, size - n.size), constant_values=n[-1]) for n, _ in nodes])
+    weights = np.array([np.pad(w, (0, size - w.size)) for _, w in nodes])
+    site_rules = Rules.stack([b.site_rule for b in built])
+    free_rules = Rules.stack([b.free_rule for b in built])
+    target = np.array([1.0 - settings[r].reliability for r in rows])
+    site_not = solve(streams, gaps, weights, site_rules)
+    free_not = solve(streams, gaps, weights, free_rules, stop_below=target)
+    free: dict[int, tuple[FloatArray, int, FloatArray]] = {}
+    site: dict[int, _SiteCurve] = {}
+    for i, (r, x, crossing, forcing_from, tau_site, _, tau_free, _) in enumerate(built):
+        full = station[r]
+        cells = np.arange(site_rules.cells[i]) * CELL
+        decided = np.where(x >= forcing_from, 1.0 - np.interp(tau_site, cells, site_not[i, : site_rules.cells[i]]), 0.0)
+        site[r] = _SiteCurve(site_rules.row(i), x, crossing, decided, np.interp(full, x, tau_site))
+        reached = np.flatnonzero(free_not[i, : free_rules.cells[i]] <= target[i])
+        last_cell = int(reached[0]) if reached.size else int(free_rules.cells[i]) - 1
+        solved_cells = np.arange(last_cell + 1) * CELL
+        eligible = ~np.isnan(x_a[r]) & (x >= x_a[r])
+        p = np.where(eligible, 1.0 - np.interp(tau_free, solved_cells, free_not[i, : last_cell + 1]), 0.0)
+        shifted = np.interp(full, crossing, p, left=0.0)
+        hit = np.flatnonzero(shifted[: count[r]] >= 1.0 - target[i]) if reached.size else np.array([], dtype=np.intp)
+        n = int(hit[0]) + 1 if hit.size else int(np.searchsorted(full[: count[r]], crossing[-1], side="right"))
+        free[r] = (shifted, max(1, min(n, int(count[r]))), np.interp(full, x, tau_free))
+    return free, site
+
+
+def _stream(setting: MergeSetting) -> HeadwayModel:
+    if setting.headways is None:
+        raise ValueError("an empty adjacent lane has no renewal solution")
+    return setting.headways
+
+
+def _at(station: FloatArray, values: FloatArray, count: NDArray[np.intp], x: FloatArray) -> FloatArray:
+    """Each row's values, linear between its first ``count`` stations, at the row's own station x."""
+    rows = np.arange(station.shape[0])
+    j = np.clip(np.sum(station <= x[:, None], axis=1) - 1, 0, np.maximum(count - 2, 0))
+    k = np.minimum(j + 1, count - 1)
+    span = station[rows, k] - station[rows, j]
+    share = np.divide(x - station[rows, j], span, out=np.zeros_like(x), where=span > 0)
+    return np.asarray(values[rows, j] + share * (values[rows, k] - values[rows, j]), dtype=float)
+
+
+def _first_reaching(
+    station: FloatArray, probability: FloatArray, count: NDArray[np.intp], target: FloatArray
+) -> FloatArray:
+    """First station of each row where the probability reaches the target (linear between stations); NaN if none."""
+    rows = np.arange(station.shape[0])
+    hit = (probability >= target[:, None]) & (np.arange(station.shape[1]) < count[:, None])
+    i = np.argmax(hit, axis=1)
+    before = np.maximum(i - 1, 0)
+    rise = probability[rows, i] - probability[rows, before]
+    share = np.divide(target - probability[rows, before], rise, out=np.ones_like(rise), where=(i > 0) & (rise > 0))
+    x = station[rows, before] + share * (station[rows, i] - station[rows, before])
+    return np.asarray(np.where(hit.any(axis=1), x, np.nan), dtype=float)
+
+
+def _eligible_stations(
+    station: FloatArray, speed: FloatArray, count: NDArray[np.intp], convergence: FloatArray, minimum: FloatArray
+) -> FloatArray:
+    """First station of each row past the convergence point where the speed reaches ``minimum``; NaN if never. [m]
+
+    Between samples the crossing is interpolated linearly in v^2 (exact for constant acceleration).
+    """
+    rows = np.arange(station.shape[0])
+    eligible = (station >= convergence[:, None]) & (speed >= minimum[:, None])
+    eligible &= np.arange(station.shape[1]) < count[:, None]
+    i = np.argmax(eligible, axis=1)
+    before = np.maximum(i - 1, 0)
+    low, high = speed[rows, before] ** 2, speed[rows, i] ** 2
+    crossing = (i > 0) & (low < minimum**2)
+    share = np.divide(minimum**2 - low, high - low, out=np.zeros_like(low), where=crossing)
+    x = np.where(
+        crossing,
+        np.maximum(station[rows, before] + share * (station[rows, i] - station[rows, before]), convergence),
+        station[rows, i],
+    )
+    return np.asarray(np.where(eligible.any(axis=1), x, np.nan), dtype=float)
