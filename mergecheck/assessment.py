@@ -36,7 +36,6 @@ from typing import Literal
 import numpy as np
 from numpy.typing import NDArray
 
-from .cautions import CAUTIONS
 from .critical_gaps import CriticalGap
 from .headways import HeadwayModel, headway_model
 from .merge_operations import MergeOperations, merge_operations
@@ -142,7 +141,6 @@ class SiteAssessment:
     merge_area_not_applied: str
     """Why the merge-area method was not applied to a site that gives a mainline flow ('' when applied or when
     there is no mainline flow)."""
-    cautions: tuple[str, ...]
 
     def figures_only(self) -> SiteAssessment:
         """The same assessment without the curves along the path (what a batch keeps of each site)."""
@@ -403,7 +401,6 @@ def _site_assessment(
         policy=policy,
         merge_area=None if isinstance(merge, str) else merge,
         merge_area_not_applied=merge if isinstance(merge, str) else "",
-        cautions=CAUTIONS,
     )
 
 

@@ -11,6 +11,7 @@ import jinja2
 
 from .. import __version__
 from ..assessment import SiteAssessment
+from ..cautions import CAUTIONS
 from ..exception import DesignException
 from ..narrative import assumptions, summary_sentence
 from ..units import UnitSystem, show
@@ -44,6 +45,7 @@ def site_html(assessment: SiteAssessment, system: UnitSystem, exception: DesignE
         site=assessment.site,
         summary=summary_sentence(assessment, system),
         assumptions=assumptions(assessment),
+        cautions=CAUTIONS,
         figures=figures,
         exception=exception,
         fmt=fmt,

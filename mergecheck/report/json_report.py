@@ -167,7 +167,7 @@ def site_json(assessment: SiteAssessment) -> dict[str, Any]:
         "merge_area": merge_area_json(assessment.merge_area),
         "merge_area_not_applied": assessment.merge_area_not_applied or None,
         "assumptions": [{"name": a.name, "value": a.value, "source": a.source} for a in assumptions(assessment)],
-        "cautions": list(assessment.cautions),
+        "cautions": list(CAUTIONS),
     }
 
 

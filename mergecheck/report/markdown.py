@@ -178,7 +178,7 @@ def site_markdown(assessment: SiteAssessment, system: UnitSystem, exception: Des
     lines += ["", "## Assumptions", "", "| Item | Value | Source |", "|---|---|---|"]
     lines += [f"| {_cell(a.name)} | {_cell(a.value)} | {_cell(a.source)} |" for a in assumptions(assessment)]
     lines += ["", "## Cautions", ""]
-    lines += [f"- {c}" for c in assessment.cautions]
+    lines += [f"- {c}" for c in CAUTIONS]
     return "\n".join(lines) + "\n"
 
 

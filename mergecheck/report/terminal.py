@@ -261,7 +261,7 @@ def site_view(assessment: SiteAssessment, system: UnitSystem) -> RenderableType:
     listed.add_column("Source", ratio=5)
     for a in assumptions(assessment):
         listed.add_row(a.name, a.value, a.source)
-    parts += [Text(""), listed, cautions_block(assessment.cautions)]
+    parts += [Text(""), listed, cautions_block(CAUTIONS)]
     return Group(*parts)
 
 
