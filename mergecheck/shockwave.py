@@ -8,9 +8,8 @@ arriving state A and a queued state Q moves at
 (Lighthill and Whitham 1955; Richards 1956): negative, upstream, while the
 queue grows. The queue region gains vehicles, over what the arriving state
 would hold on the same road, at q_A - q_Q; its back lies |w| t upstream of
-the bottleneck after t. Two flow-density relations are offered (registry
-``FLOW_DENSITY``): the triangular relation (free-flow speed, capacity, jam
-density; Newell 1993) and Greenshields' parabola (Greenshields 1935).
+the bottleneck after t. The flow-density relation is triangular (free-flow
+speed, capacity, jam density; Newell 1993).
 
 References
 ----------
@@ -18,7 +17,6 @@ Lighthill, M. J., and Whitham, G. B. (1955). "On kinematic waves II. A theory of
 crowded roads." Proc. R. Soc. Lond. A 229, 317-345.
 Richards, P. I. (1956). "Shock waves on the highway." Operations Research 4(1), 42-51.
 Newell, G. F. (1993). "A simplified theory of kinematic waves in highway traffic." Transportation Research B 27(4).
-Greenshields, B. D. (1935). "A study of traffic capacity." Highway Research Board Proceedings 14, 448-477.
 """
 
 from __future__ import annotations
@@ -117,34 +115,6 @@ class Triangular:
     def congested(self, flow: float) -> TrafficState:
         """Congested (queued) state carrying a flow."""
         return TrafficState(flow, self.jam_density - flow / self.wave_speed)
-
-
-@dataclass(frozen=True, slots=True)
-class Greenshields:
-    """Greenshields' relation q = v_f k (1 - k / k_j) (totals over the lanes)."""
-
-    free_flow_speed: float
-    jam_density: float
-
-    @property
-    def capacity(self) -> float:
-        return self.free_flow_speed * self.jam_density / 4
-
-    def _density(self, flow: float, sign: float) -> float:
-        root = math.sqrt(max(1.0 - flow / self.capacity, 0.0))
-        return self.jam_density / 2 * (1 + sign * root)
-
-    def free(self, flow: float) -> TrafficState:
-        return TrafficState(flow, self._density(flow, -1.0))
-
-    def congested(self, flow: float) -> TrafficState:
-        return TrafficState(flow, self._density(flow, +1.0))
-
-
-FLOW_DENSITY = {
-    "triangular": "free-flow speed, capacity and jam density (Newell 1993)",
-    "greenshields": "parabolic q = v_f k (1 - k/k_j) (Greenshields 1935)",
-}
 
 
 @dataclass(frozen=True, slots=True, kw_only=True)

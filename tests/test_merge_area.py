@@ -11,7 +11,7 @@ import pytest
 from mergecheck.assessment import assess
 from mergecheck.merge_area import level_of_service, merge_area, merge_influence_share, passenger_car_flow
 from mergecheck.narrative import assumptions
-from mergecheck.shockwave import Greenshields, Triangular, queue_history, shock_speed
+from mergecheck.shockwave import Triangular, queue_history, shock_speed
 from mergecheck.units import parse_quantity
 
 
@@ -246,17 +246,13 @@ def test_queue_clearing_time_by_hand() -> None:
     assert history.length.max() == pytest.approx(-w1 * 3600, rel=1e-6)
 
 
-def test_flow_density_relations_are_consistent() -> None:
-    """Both branches carry the flow asked for; Greenshields' capacity is v_f k_j / 4 (Greenshields 1935)."""
+def test_flow_density_relation_is_consistent() -> None:
+    """Both branches of the triangular relation carry the flow asked for (Newell 1993)."""
     tri = Triangular(free_flow_speed=30.0, capacity=0.6, jam_density=0.12)
     for flow in (0.1, 0.3, 0.55):
         congested = tri.congested(flow)
         assert congested.flow == pytest.approx(tri.wave_speed * (tri.jam_density - congested.density))
         assert tri.free(flow).speed == pytest.approx(30.0)
-    green = Greenshields(free_flow_speed=30.0, jam_density=0.12)
-    assert green.capacity == pytest.approx(0.9)
-    for state in (green.free(0.5), green.congested(0.5)):
-        assert state.flow == pytest.approx(30.0 * state.density * (1 - state.density / 0.12))
 
 
 def test_site_merge_area_and_breakdown(cli: Any, repo: Path) -> None:
