@@ -226,3 +226,19 @@ def test_the_table_follows_the_units_of_the_design_speed_unless_named(make_site:
     named_metric = assess(make_site(mainline__design_speed="60 mph", mainline__operating_speed="60 mph",
                                     policy="METRIC"))  # fmt: skip
     assert named_metric.site.policy_file == "metric"
+
+
+def test_a_per_vehicle_critical_gap_overrides_the_default(make_site: Any) -> None:
+    """gap_acceptance.critical_gaps (documented in the README's site file): the vehicle named gets the
+    given distribution at speed and from a stop, the others keep the defaults, and a longer critical gap
+    needs a longer lane for the same reliability (more gaps are refused: monotone by the renewal argument)."""
+    plain = assess(make_site())
+    given = {"passenger-car": {"mean": "3.0 s", "sd": "0.6 s", "from_stop_mean": "9 s", "from_stop_sd": "2 s"}}
+    choosy = assess(make_site(gap_acceptance__critical_gaps=given))
+    car, default = choosy.vehicles[0], plain.vehicles[0]
+    assert (car.critical_gap.mean, car.critical_gap.sd) == (3.0, 0.6) and car.critical_gap.source == "site file"
+    assert (car.stop_critical_gap.mean, car.stop_critical_gap.sd) == (9.0, 2.0)
+    assert default.critical_gap.mean == 2.0  # the default for cars (mergecheck/data/critical-gaps.yaml)
+    assert car.merge.length_for_reliability is not None and default.merge.length_for_reliability is not None
+    assert car.merge.length_for_reliability > default.merge.length_for_reliability
+    assert car.merge.by_lane_end < default.merge.by_lane_end
