@@ -142,15 +142,17 @@ def to_markdown(result: SiteAssessment, *, units: UnitSystem = "si", exception: 
     """The Markdown report, with the design-exception section when a vehicle falls short or ``exception`` is
     set (or given, as :func:`design_exception` made it)."""
     from .report import markdown
+    from .report.document import site_document
 
-    return markdown.site_markdown(result, units, _exception(result, exception))
+    return markdown.site_markdown(site_document(result, units, _exception(result, exception)))
 
 
 def to_html(result: SiteAssessment, *, units: UnitSystem = "si", exception: bool | DesignException = False) -> str:
     """The self-contained HTML report with its figures (inline SVG; every user string escaped)."""
     from .report import html  # matplotlib is slow to import: only when a page is asked for
+    from .report.document import site_document
 
-    return html.site_html(result, units, _exception(result, exception))
+    return html.site_html(site_document(result, units, _exception(result, exception)), result)
 
 
 def design_exception(result: SiteAssessment) -> DesignException:

@@ -28,6 +28,7 @@ from .merge_operations import TRUCK_EQUIVALENT
 from .output_files import Output, check_outputs, write_all
 from .profile import VerticalProfile
 from .report import csv_report, json_report, markdown, terminal
+from .report.document import site_document
 from .results import AccelerationRun, GapFigures
 from .shockwave import TrafficState, on_one_relation, queue_growth, shock_speed
 from .site import SiteInput, load_site
@@ -260,8 +261,9 @@ def _check(args: argparse.Namespace, out: Console, err: Console) -> int:
     else:
         assessment = api.assess(site, monte_carlo=args.monte_carlo)
     study: bool | DesignException = False
-    if (args.exception or assessment.verdict == "short") and (args.html is not None or args.markdown is not None):
-        study = api.design_exception(assessment)  # once, for both documents
+    files = args.html is not None or args.markdown is not None
+    if args.exception or (assessment.verdict == "short" and files):
+        study = api.design_exception(assessment)  # once, for every document that shows it
     render = {
         "--json": lambda: api.to_json(assessment),
         "--markdown": lambda: api.to_markdown(assessment, units=args.units, exception=study),
@@ -273,7 +275,8 @@ def _check(args: argparse.Namespace, out: Console, err: Console) -> int:
         assert isinstance(documents[0].text, str)
         sys.stdout.write(documents[0].text)
     else:
-        out.print(terminal.site_view(assessment, args.units))
+        shown = study if args.exception and not isinstance(study, bool) else None
+        out.print(terminal.site_view(site_document(assessment, args.units, shown)))
     return EXIT_OK if assessment.verdict == "meets" else EXIT_SHORT
 
 

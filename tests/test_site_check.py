@@ -69,7 +69,7 @@ def test_issue_minimal_form(cli: Any, repo: Path) -> None:
     assert run.code == 1
     assert "Verdict: SHORT" in run.stdout and "semitrailer-design" in run.stdout
     assert "Cautions" in run.stdout and "licensed engineer" in run.stdout
-    assert "Merging into the adjacent lane" in run.stdout and "Stops" in run.stdout
+    assert "Finding a gap" in run.stdout and "Stops" in run.stdout
 
 
 @pytest.mark.parametrize(
@@ -106,9 +106,12 @@ def test_markdown_and_json_files(cli: Any, repo: Path, tmp_path: Path) -> None:
     text = md.read_text()
     for heading in (
         "# Acceleration-lane check",
-        "## Acceleration length",
-        "## Merging into the adjacent lane",
-        "## Policy minimum",
+        "## Layout",
+        "## Speed along the ramp",
+        "## Finding a gap",
+        "## Length required and available",
+        "| Policy minimum acceleration length |",
+        "## Design exception",
         "## Assumptions",
         "## Cautions",
     ):

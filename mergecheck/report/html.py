@@ -1,8 +1,8 @@
 """HTML renderer: one self-contained page (inline styles, inline SVG figures, no scripts or fonts).
 
-Built from a Jinja2 template with automatic escaping, so every string that
-comes from a user's file is escaped; only the SVG figures drawn here are
-marked safe. Reads results only.
+Built from a Jinja2 template with automatic escaping over the site report's document
+(:mod:`mergecheck.report.document`), so every string that comes from a user's file is escaped; only the SVG
+figures drawn here are marked safe.
 """
 
 from __future__ import annotations
@@ -11,12 +11,8 @@ import jinja2
 
 from .. import __version__
 from ..assessment import SiteAssessment
-from ..cautions import CAUTIONS
-from ..exception import DesignException
-from ..narrative import assumptions, summary_sentence
-from ..units import UnitSystem, show
 from . import plots
-from .wording import clearing, merge_behaviour, mitigation_change, slowing_notes, verdict_bases
+from .document import SiteDocument, unit_of
 
 _ENVIRONMENT = jinja2.Environment(
     loader=jinja2.PackageLoader("mergecheck.report", "templates"),
@@ -27,32 +23,15 @@ _ENVIRONMENT = jinja2.Environment(
 )
 
 
-def site_html(assessment: SiteAssessment, system: UnitSystem, exception: DesignException | None) -> str:
-    """The report page."""
-
-    def fmt(value: float | None, kind: str) -> str:
-        return show(value, kind, system)
-
+def site_html(document: SiteDocument, assessment: SiteAssessment) -> str:
+    """The report page: the document laid out, with the figures drawn from the assessment it was built from."""
+    system = document.system
     figures = {
         "layout": plots.layout_figure(assessment, system),
         "speed": plots.speed_figure(assessment, system),
         "merge": plots.merge_figure(assessment, system),
         "length": plots.length_figure(assessment, system),
     }
-    template = _ENVIRONMENT.get_template("report.html.j2")
-    return template.render(
-        a=assessment,
-        site=assessment.site,
-        summary=summary_sentence(assessment, system),
-        assumptions=assumptions(assessment),
-        cautions=CAUTIONS,
-        figures=figures,
-        exception=exception,
-        fmt=fmt,
-        change_text=lambda m: mitigation_change(m, system),
-        behaviour=merge_behaviour(assessment.site),
-        bases=[*verdict_bases(assessment, system), *slowing_notes(assessment, system)],
-        clears=clearing,
-        system=system,
-        version=__version__,
+    return _ENVIRONMENT.get_template("report.html.j2").render(
+        d=document, figures=figures, unit_of=unit_of, version=__version__
     )

@@ -7,20 +7,20 @@ from rich.console import Group, RenderableType
 from rich.table import Table
 from rich.text import Text
 
-from ..assessment import SiteAssessment
 from ..batch import BatchResult, BatchSummary
 from ..cautions import CAUTIONS
 from ..critical_gap_estimation import CriticalGapEstimate
 from ..figures import VehicleFigures
 from ..merge_area import MergeArea
 from ..merge_operations import MergeOperations
-from ..narrative import assumptions, summary_sentence
 from ..results import AccelerationRun, GapFigures
 from ..shockwave import QueueGrowth
 from ..sweep import Sweep
-from ..units import UnitSystem, convert, number, show, unit_symbol
+from ..units import UnitSystem, convert, show, unit_symbol
+from .document import Items, Paragraph, SiteDocument, unit_of
+from .document import Table as DocumentTable
 from .table_rows import batch_row
-from .wording import clearing, merge_behaviour, slowing_notes, verdict_bases
+from .wording import clearing
 
 
 def _table_interval(length: float, system: UnitSystem) -> float:
@@ -126,143 +126,59 @@ def vehicles_view(figures: list[VehicleFigures], system: UnitSystem) -> Renderab
 _VERDICT_STYLE = {"meets": "bold green", "short": "bold red", "cannot-reach": "bold red"}
 
 
-def site_view(assessment: SiteAssessment, system: UnitSystem) -> RenderableType:
-    """Verdict first, then speeds, lengths, policy, assumptions and cautions."""
-    site = assessment.site
-    unit_v, unit_l = unit_symbol("speed", system), unit_symbol("length", system)
-    verdict = Text.assemble(
-        ("Verdict: ", "bold"),
-        (assessment.verdict.upper(), _VERDICT_STYLE[assessment.verdict]),
-        ("   governing vehicle: ", "bold"),
-        (assessment.governing.vehicle.id, "bold"),
-    )
-    layout = Table.grid(padding=(0, 2))
-    layout.add_column(style="bold")
-    layout.add_column()
-    layout.add_row("Site", site.name)
-    layout.add_row(
-        "Mainline",
-        f"design {show(site.design_speed, 'speed', system)}, operating {show(site.operating_speed, 'speed', system)}, "
-        f"{site.lanes} lanes, adjacent lane {site.adjacent_lane_flow * 3600:.0f} veh/h",
-    )
-    ramp_start = (
-        "stop"
-        if site.controlling_speed is None
-        else f"controlling curve {show(site.controlling_speed, 'speed', system)}"
-    )
-    layout.add_row(
-        "Ramp",
-        f"{ramp_start}, leaving at {show(assessment.initial_speed, 'speed', system)}, {site.ramp_flow * 3600:.0f} veh/h",
-    )
-    layout.add_row(
-        "Layout",
-        f"{site.entrance} entrance: convergence point at {show(site.convergence, 'length', system)}, lane "
-        f"{show(site.lane_length, 'length', system)}, taper {show(site.taper_length, 'length', system)}; "
-        f"average grade over the lane {assessment.average_grade:+.1%}",
-    )
+_FLAG_STYLE = {
+    "large": "red",
+    "exceeded": "bold red",
+    "meets": "bold green",
+    "short": "bold red",
+    "cannot-reach": "bold red",
+}
+_TONE_STYLE = {"plain": "", "quiet": "dim", "warning": "yellow", "strong": "bold"}
 
-    speeds = Table(title="Speeds along the ramp", title_justify="left")
-    speeds.add_column("Vehicle", no_wrap=True)
-    for heading in ("Merge", "At conv. pt", "At lane end", "At taper end", "Δv lane end", "Crawl"):
-        speeds.add_column(f"{heading} ({unit_v})", justify="right")
-    for v in assessment.vehicles:
-        diff = f"{convert(v.speed_differential_at_lane_end, 'speed', system):.1f}"
-        speeds.add_row(
-            v.vehicle.id,
-            number(v.merge_speed, "speed", system),
-            number(v.speed_at_convergence, "speed", system),
-            number(v.speed_at_taper_start, "speed", system),
-            number(v.speed_at_taper_end, "speed", system),
-            Text(diff + (" ⚑" if v.large_differential else ""), style="red" if v.large_differential else ""),
-            number(v.crawl_speed, "speed", system),
-        )
 
-    policy = assessment.policy
-    lengths = Table(title="Acceleration length (from the convergence point)", title_justify="left")
-    lengths.add_column("Vehicle", no_wrap=True)
-    lengths.add_column("Share", justify="right")
-    for heading in ("To merge speed", f"For {site.gaps.reliability:.0%} gaps", "Available", "Deficit"):
-        lengths.add_column(f"{heading} ({unit_l})", justify="right")
-    lengths.add_column("Verdict")
-    for v in assessment.vehicles:
-        required = "never" if v.required_length is None else number(v.required_length, "length", system)
-        deficit = "-" if v.deficit is None else number(v.deficit, "length", system)
-        lengths.add_row(
-            v.vehicle.id,
-            f"{v.share:.0%}",
-            required,
-            "-" if v.merge.length_for_reliability is None else number(v.merge.length_for_reliability, "length", system),
-            number(v.available_length, "length", system),
-            deficit,
-            Text(v.verdict, style=_VERDICT_STYLE[v.verdict]),
-        )
-    if policy is not None:
-        value = "none" if policy.minimum_length is None else number(policy.minimum_length, "length", system)
-        basis = policy.note
-        if policy.merge_speed is not None:
-            basis += f"; assumes merge at {show(policy.merge_speed, 'speed', system)}"
-        lengths.add_row("policy minimum", "", value, "", number(site.available_length, "length", system), "", "")
-
-    merging = Table(
-        title=f"Merging into the adjacent lane ({site.adjacent_lane_flow * 3600:.0f} veh/h)", title_justify="left"
-    )
-    merging.add_column("Vehicle", no_wrap=True)
-    for heading in (
-        "Merged by lane end",
-        "By taper end",
-        "Forced in taper (veh/h)",
-        "Stops (veh/h)",
-        "Stopped wait (s)",
-    ):
-        merging.add_column(heading, justify="right")
-    for v in assessment.vehicles:
-        m = v.merge
-        simulated = "" if v.monte_carlo is None else f" (sim. {v.monte_carlo.by_lane_end:.1%})"
-        merging.add_row(
-            v.vehicle.id,
-            f"{m.by_lane_end:.1%}{simulated}",
-            f"{m.by_taper_end:.1%}",
-            f"{m.forced_merges_per_h:.1f}",
-            f"{m.stops_per_h:.1f}",
-            f"{m.mean_stopped_wait:.0f}",
-        )
-
-    on, policy_line, performance_line = verdict_bases(assessment, system)
+def site_view(document: SiteDocument) -> RenderableType:
+    """The site report (:mod:`mergecheck.report.document`): the verdict first, then each section in turn."""
+    system = document.system
     parts: list[RenderableType] = [
-        verdict,
-        Text(on),
-        Text(policy_line),
-        Text(performance_line),
-        *(Text(line, style="yellow") for line in slowing_notes(assessment, system)),
-        Text(summary_sentence(assessment, system)),
-        Text(""),
-        layout,
-        Text(""),
-        speeds,
-        lengths,
-        merging,
-        Text(merge_behaviour(site), style="dim"),
+        Text.assemble(
+            ("Verdict: ", "bold"),
+            (document.verdict.upper(), _VERDICT_STYLE[document.verdict]),
+            ("   governing vehicle: ", "bold"),
+            (document.governing, "bold"),
+        ),
+        Text(f"Site: {document.site}"),
+        *(Text(line) for line in document.headline),
+        Text(document.summary),
     ]
-    if policy is not None:
-        parts.append(Text(f"Policy minimum: {basis}.", style="bold"))
-        parts.append(
-            Text(
-                f"Policy: {policy.table.title}. {policy.table.source} Length measured: {policy.table.length_definition}",
-                style="dim",
-            )
-        )
-        if policy.table.caution:
-            parts.append(Text(f"Policy caution: {policy.table.caution}", style="yellow"))
-    if assessment.merge_area is not None:
-        parts += [Text(""), merge_area_view(assessment.merge_area, system)]
-    listed = Table(title="Assumptions", title_justify="left", show_lines=False)
-    listed.add_column("Item", no_wrap=False, ratio=2)
-    listed.add_column("Value", ratio=2)
-    listed.add_column("Source", ratio=5)
-    for a in assumptions(assessment):
-        listed.add_row(a.name, a.value, a.source)
-    parts += [Text(""), listed, cautions_block(CAUTIONS)]
+    for section in document.sections:
+        parts += [Text(""), Text(section.title, style="bold underline")]
+        for block in section.blocks:
+            if isinstance(block, Items):
+                grid = _grid()
+                for label, value in block.rows:
+                    grid.add_row(label, _styled(value.text(system), value.flag))
+                parts.append(grid)
+            elif isinstance(block, DocumentTable):
+                parts.append(_table(block, system))
+            elif isinstance(block, Paragraph):
+                parts.append(Text(block.text, style=_TONE_STYLE[block.tone]))
+    parts.append(cautions_block(document.cautions))
     return Group(*parts)
+
+
+def _table(table: DocumentTable, system: UnitSystem) -> Table:
+    shown = Table(title=table.caption or None, title_justify="left")
+    for i, (heading, kind) in enumerate(table.columns):
+        unit = unit_of(kind, system)
+        justify = "left" if kind == "text" else "right"
+        shown.add_column(f"{heading} ({unit})" if unit else heading, justify=justify, no_wrap=i == 0)  # ids whole
+    for row in table.rows:
+        shown.add_row(*(_styled(v.text(system, unit=False) + (" ⚑" if v.flag == "large" else ""), v.flag) for v in row))
+    return shown
+
+
+def _styled(text: str, flag: str) -> Text:
+    return Text(text, style=_FLAG_STYLE.get(flag, ""))
 
 
 def gaps_view(figures: GapFigures) -> RenderableType:

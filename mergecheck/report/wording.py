@@ -1,4 +1,5 @@
-"""Words shared by the document renderers (Markdown and HTML)."""
+"""Sentences of the site report (the verdict bases, slowing, merge behaviour, mitigations, queue clearing), for
+:mod:`mergecheck.report.document`."""
 
 from __future__ import annotations
 
