@@ -170,8 +170,11 @@ def _table(table: DocumentTable, system: UnitSystem) -> Table:
     shown = Table(title=table.caption or None, title_justify="left")
     for i, (heading, kind) in enumerate(table.columns):
         unit = unit_of(kind, system)
-        justify = "left" if kind == "text" else "right"
-        shown.add_column(f"{heading} ({unit})" if unit else heading, justify=justify, no_wrap=i == 0)  # ids whole
+        heading = f"{heading} ({unit})" if unit else heading
+        if kind == "text":
+            shown.add_column(heading, no_wrap=i == 0)  # the first column (vehicle ids) whole
+        else:
+            shown.add_column(heading, justify="right")
     for row in table.rows:
         shown.add_row(*(_styled(v.text(system, unit=False) + (" ⚑" if v.flag == "large" else ""), v.flag) for v in row))
     return shown
