@@ -19,10 +19,11 @@ from .batch import assess_all, ranked, read_entries, source_files, summarize
 from .critical_gap_estimation import ESTIMATORS, read_observations
 from .errors import InputError
 from .exception import DesignException
+from .fields import Reads, read_option
 from .figures import vehicle_figures
 from .headways import HEADWAY_MODELS, headway_model, mean_wait
 from .inputs import ProfileFile, build_profile, check_grade, control_character, printable, read_yaml, validated
-from .limits import CRITICAL_GAP, ELEVATION, MIN_HEADWAY, PROBE_FLOW, VEHICLE_SPEED
+from .limits import CRITICAL_GAP, ELEVATION, FREE_FLOW_SPEED, MIN_HEADWAY, PROBE_FLOW, VEHICLE_SPEED
 from .merge_area import COVERAGE, LANES_COVERED, OutsideMethod, merge_area, passenger_car_flow
 from .merge_operations import TRUCK_EQUIVALENT
 from .output_files import Output, check_outputs, write_all
@@ -220,22 +221,18 @@ def _vehicles(args: argparse.Namespace, out: Console, err: Console) -> int:
 
 def _accel(args: argparse.Namespace, out: Console, err: Console) -> int:
     vehicle = load_vehicle(args.vehicle, source="command line", field="--vehicle")
-    initial = parse_quantity(args.initial, "speed", source="command line", field="--from")
-    target = parse_quantity(args.target, "speed", source="command line", field="--to")
-    for name, value in (("--from", initial), ("--to", target)):
-        VEHICLE_SPEED.check(value, "command line", name)
+    initial = read_option(args.initial, Reads("speed", VEHICLE_SPEED, "50 km/h"), "--from")
+    target = read_option(args.target, Reads("speed", VEHICLE_SPEED, "90 km/h"), "--to")
     elevation = 0.0
     if args.elevation is not None:
-        elevation = parse_quantity(args.elevation, "length", source="command line", field="--elevation")
+        elevation = read_option(args.elevation, Reads("length", ELEVATION, "450 m"), "--elevation")
     if args.grade is not None:
         profile = build_profile_from_grade(args.grade)
     else:
         profile, file_elevation = load_profile_file(args.profile)
         if args.elevation is None:
             elevation = file_elevation
-    if args.elevation is not None:
-        ELEVATION.check(elevation, "command line", "--elevation")
-    else:
+    if args.elevation is None:
         ELEVATION.check(elevation, args.profile, "elevation")
     trajectory = accelerate(vehicle.model, profile, initial, target, elevation=elevation, slowing=target < initial)
     run = AccelerationRun(vehicle=vehicle, profile=profile, elevation=elevation, trajectory=trajectory)
@@ -281,16 +278,13 @@ def _check(args: argparse.Namespace, out: Console, err: Console) -> int:
 
 
 def _gaps(args: argparse.Namespace, out: Console, err: Console) -> int:
-    flow = parse_quantity(args.flow, "flow", source="command line", field="--flow")
-    gap = parse_quantity(args.critical_gap, "time", source="command line", field="--critical-gap")
-    PROBE_FLOW.check(flow, "command line", "--flow")
+    flow = read_option(args.flow, Reads("flow", PROBE_FLOW, "1400 veh/h"), "--flow")
+    gap = read_option(args.critical_gap, Reads("time", CRITICAL_GAP, "3.5 s"), "--critical-gap")
     if not gap > 0:
         raise InputError("command line", "--critical-gap", "must be positive")
-    CRITICAL_GAP.check(gap, "command line", "--critical-gap")
     min_headway = None
     if args.model == "m3":
-        min_headway = parse_quantity(args.min_headway, "time", source="command line", field="--min-headway")
-        MIN_HEADWAY.check(min_headway, "command line", "--min-headway")
+        min_headway = read_option(args.min_headway, Reads("time", MIN_HEADWAY, "1.0 s"), "--min-headway")
         if min_headway * flow >= 1:
             raise InputError("command line", "--min-headway", "must be below the mean headway 1/q")
         if args.free_fraction is not None and not 0.01 <= args.free_fraction <= 1:
@@ -345,11 +339,8 @@ def _merge_area(args: argparse.Namespace, out: Console, err: Console) -> int:
     length = parse_quantity(args.accel_length, "length", source="command line", field="--accel-length")
     if not 0 <= length <= 2000:
         raise InputError("command line", "--accel-length", "must lie between 0 and 2000 m")
-    speeds = {}
-    for name, text in (("--ffs", args.ffs), ("--ramp-ffs", args.ramp_ffs)):
-        speeds[name] = parse_quantity(text, "speed", source="command line", field=name)
-        if not 15 / 3.6 <= speeds[name] <= 160 / 3.6:
-            raise InputError("command line", name, "must lie between 15 and 160 km/h")
+    speeds = {name: read_option(text, Reads("speed", FREE_FLOW_SPEED, "65 mph"), name)
+              for name, text in (("--ffs", args.ffs), ("--ramp-ffs", args.ramp_ffs))}  # fmt: skip
     try:
         result = merge_area(
             lanes=args.lanes,

@@ -6,6 +6,7 @@ Shared by the ``accel`` command's profile file and the site file.
 from __future__ import annotations
 
 import csv
+import difflib
 from pathlib import Path
 from typing import Any, TypeVar
 
@@ -214,12 +215,21 @@ def read_yaml(path: str) -> Any:
 
 
 def pydantic_error(error: ValidationError, source: str) -> InputError:
-    """The first pydantic error as an :class:`InputError` naming the field path."""
-    first = error.errors()[0]
+    """The first pydantic error as an :class:`InputError` naming the field path.
+
+    A misspelt key shows twice, as an unknown field and as a required one missing beside it: the unknown one is
+    named, with the missing field nearest in spelling as the likely meaning.
+    """
+    errors = error.errors()
+    unknown = [e for e in errors if e["type"] == "extra_forbidden"]
+    first = unknown[0] if unknown else errors[0]
     path = ".".join(str(part) for part in first["loc"])
-    message = first["msg"]
+    message = first["msg"].removeprefix("Value error, ")
     if first["type"] == "extra_forbidden":
-        message = "unknown field"
+        parent = first["loc"][:-1]
+        missing = [str(e["loc"][-1]) for e in errors if e["type"] == "missing" and e["loc"][:-1] == parent]
+        near = difflib.get_close_matches(str(first["loc"][-1]), missing, n=1, cutoff=0.6)
+        message = "unknown field" + (f": did you mean {near[0]!r}?" if near else "")
     elif first["type"] == "missing":
         message = "required field is missing"
     return InputError(source, path, message)

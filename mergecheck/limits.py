@@ -23,6 +23,8 @@ _SHOWN: dict[str, tuple[str, float]] = {
     "speed": ("km/h", 3.6),
     "grade": ("%", 100.0),
     "weight_to_power": ("kg/kW", 1000.0),
+    "acceleration": ("m/s^2", 1.0),
+    "density": ("veh/km", 1000.0),
 }
 
 
@@ -67,3 +69,31 @@ VEHICLE_SPEED = Limit("speed", 0.0, 300 / 3.6)
 """Any speed a design vehicle is asked about: ``accel`` speeds, a tabulated model's rows."""
 MAINLINE_SPEED = Limit("speed", 40 / 3.6, 160 / 3.6)
 """Design and operating speeds of a freeway or expressway merge."""
+PATH_LENGTH = Limit("length", 0.0, 5000.0)
+"""A length along the vehicle path (ramp, lane, taper); which may be 0 depends on the layout."""
+SPEED_DIFFERENTIAL = Limit("speed", 0.0, 160 / 3.6)
+"""A speed differential to the stream (also below the operating speed, checked where it is known)."""
+FLAG_DIFFERENTIAL = Limit("speed", 1 / 3.6, 160 / 3.6)
+"""The differential flagged as large."""
+SEARCH_SPEED = Limit("speed", 1 / 3.6, 50 / 3.6)
+"""Least relative speed of a driver searching for a gap."""
+FREE_FLOW_SPEED = Limit("speed", 15 / 3.6, 160 / 3.6)
+"""Free-flow speed of a mainline or a ramp for the merge-area method."""
+JAM_DENSITY = Limit("density", 0.06, 0.2)
+"""Jam density per lane."""
+PEAK_DURATION = Limit("time", 1.0, 6 * 3600.0)
+"""How long the design-hour demand lasts."""
+PERIOD_DURATION = Limit("time", 1.0, 24 * 3600.0)
+"""One period of a demand profile."""
+APPROACH_WINDOW = Limit("time", 0.0, 30.0)
+FOLLOWER_EASING = Limit("acceleration", 0.05, 5.0)
+PRESSURE_DISTANCE = Limit("length", 1.0, 2000.0)
+CAPACITY_DENSITY = Limit("density", 0.005, 0.2)
+FORCED_GAP = Limit("time", 0.3, 10.0)
+YIELD_BRAKING = Limit("acceleration", 0.1, 8.0)
+LANE_CHANGE_TIME = Limit("time", 0.0, 15.0)
+"""The active merge model's parameters (:class:`mergecheck.merge_behaviour.MergeBehaviour`), each within a range
+a driver could show."""
+CARRIAGEWAY_FLOW = Limit("flow", 0.0, 9 * 3000 / 3600)
+"""Flow of a whole carriageway (also at most 3,000 veh/h a lane and at least the adjacent lane's, checked where
+the lanes are known)."""

@@ -15,14 +15,38 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from pathlib import Path
-from typing import Literal
+from typing import Annotated, Any, Literal
 
 from pydantic import BaseModel, ConfigDict, Field
 
 from .critical_gaps import CriticalGap, default_critical_gaps
 from .errors import InputError
+from .fields import Reads
 from .inputs import GradePoint, build_profile, read_yaml, validated
-from .limits import CRITICAL_GAP, ELEVATION, LANE_FLOW, MAINLINE_SPEED, MIN_HEADWAY
+from .limits import (
+    APPROACH_WINDOW,
+    CAPACITY_DENSITY,
+    CARRIAGEWAY_FLOW,
+    CRITICAL_GAP,
+    ELEVATION,
+    FLAG_DIFFERENTIAL,
+    FOLLOWER_EASING,
+    FORCED_GAP,
+    FREE_FLOW_SPEED,
+    JAM_DENSITY,
+    LANE_CHANGE_TIME,
+    LANE_FLOW,
+    MAINLINE_SPEED,
+    MIN_HEADWAY,
+    PATH_LENGTH,
+    PEAK_DURATION,
+    PERIOD_DURATION,
+    PRESSURE_DISTANCE,
+    SEARCH_SPEED,
+    SPEED_DIFFERENTIAL,
+    VEHICLE_SPEED,
+    YIELD_BRAKING,
+)
 from .merge_behaviour import MergeBehaviour
 from .policy import BUNDLED_POLICIES, load_policy, running_speed_for
 from .profile import VerticalProfile
@@ -35,14 +59,29 @@ AFTER_PEAK = 6 * 3600.0
 
 
 class _Strict(BaseModel):
-    model_config = ConfigDict(extra="forbid", frozen=True, populate_by_name=True)
+    model_config = ConfigDict(extra="forbid", frozen=True, populate_by_name=True, validate_default=True)
+
+
+def written(text: str) -> Any:
+    """A field's default as the site file would write it (read by the field's own reader, see ``validate_default``)."""
+    return text
+
+
+Speed = Annotated[float, Reads("speed", VEHICLE_SPEED, "45 km/h")]
+StreamSpeed = Annotated[float, Reads("speed", MAINLINE_SPEED, "100 km/h")]
+LaneFlow = Annotated[float, Reads("flow", LANE_FLOW, "1400 veh/h")]
+CarriagewayFlow = Annotated[float, Reads("flow", CARRIAGEWAY_FLOW, "4200 veh/h")]
+PathLength = Annotated[float, Reads("length", PATH_LENGTH, "300 m")]
+Elevation = Annotated[float, Reads("length", ELEVATION, "450 m")]
+Differential = Annotated[float, Reads("speed", SPEED_DIFFERENTIAL, "8 km/h")]
+GapTime = Annotated[float, Reads("time", CRITICAL_GAP, "3.2 s")]
 
 
 class MainlineInput(_Strict):
     """The freeway or expressway the ramp joins."""
 
     design_speed: str = Field(description="Highway design speed, e.g. '110 km/h' or '65 mph'.")
-    operating_speed: str | None = Field(
+    operating_speed: StreamSpeed | None = Field(
         default=None,
         description="Speed of the through stream at the merge. Default: the design speed (the conservative case).",
     )
@@ -53,10 +92,10 @@ class MainlineInput(_Strict):
         le=9,
         description="Through lanes per direction downstream, if the count changes (e.g. a lane added).",
     )
-    adjacent_lane_flow: str = Field(
+    adjacent_lane_flow: LaneFlow = Field(
         description="Design-hour flow in the lane ramp traffic merges into, e.g. '1400 veh/h'."
     )
-    flow: str | None = Field(
+    flow: CarriagewayFlow | None = Field(
         default=None,
         description="Design-hour flow of the whole carriageway approaching the merge, e.g. '3600 veh/h' (for the merge-area check).",
     )
@@ -68,14 +107,14 @@ class RampInput(_Strict):
     controlling_speed: str = Field(
         description="Design speed of the ramp's controlling curve, e.g. '50 km/h', or 'stop' for a stop or ramp meter."
     )
-    initial_speed: str | None = Field(
+    initial_speed: Speed | None = Field(
         default=None,
         description=(
             "Speed of vehicles leaving the controlling curve. Default: the policy table's initial speed for the"
             " controlling speed (average running speed on the curve), or the controlling speed itself."
         ),
     )
-    flow: str = Field(description="Design-hour ramp flow, e.g. '600 veh/h'.")
+    flow: LaneFlow = Field(description="Design-hour ramp flow, e.g. '600 veh/h'.")
     vehicles: dict[str, float] = Field(
         min_length=1,
         description="Design vehicles (bundled id or profile file path) and their share of the ramp flow; shares sum to 1.",
@@ -86,18 +125,20 @@ class GeometryInput(_Strict):
     """Lengths along the vehicle path and the vertical profile."""
 
     entrance: Literal["parallel", "taper"] = Field(description="Parallel-type or taper-type entrance.")
-    curve_end_to_convergence: str = Field(
+    curve_end_to_convergence: PathLength = Field(
         description="Ramp length from the end of the controlling curve (or the stop line) to the convergence point."
     )
-    lane_length: str = Field(
+    lane_length: PathLength = Field(
         description=(
             "Acceleration length provided, from the convergence point to the start of the taper (parallel type), or"
             " to the point of a taper-type entrance where the taper has narrowed to one lane width; 0 for a taper-type"
             " entrance with no parallel section."
         )
     )
-    taper_length: str = Field(description="Length of the taper beyond the lane.")
-    elevation: str | None = Field(default=None, description="Elevation above sea level at station 0, e.g. '450 m'.")
+    taper_length: PathLength = Field(description="Length of the taper beyond the lane.")
+    elevation: Elevation | None = Field(
+        default=None, description="Elevation above sea level at station 0, e.g. '450 m'."
+    )
     profile: list[GradePoint] = Field(
         min_length=1, description="Grades by station from the end of the controlling curve (first entry at 0)."
     )
@@ -106,7 +147,7 @@ class GeometryInput(_Strict):
 class VehicleCriteriaInput(_Strict):
     """Criteria that differ for one design vehicle."""
 
-    merge_speed_differential: str | None = Field(
+    merge_speed_differential: Differential | None = Field(
         default=None, description="Merge speed = operating speed minus this, for this vehicle."
     )
 
@@ -114,8 +155,8 @@ class VehicleCriteriaInput(_Strict):
 class HeavyVehicleCriteriaInput(_Strict):
     """Criteria for heavy design vehicles (categories truck, bus, recreational)."""
 
-    merge_speed_differential: str = Field(
-        default="16 km/h",
+    merge_speed_differential: Differential = Field(
+        default=written("16 km/h"),
         description=(
             "Merge speed of a heavy vehicle = operating speed minus this (default 16 km/h, the 10 mph speed reduction"
             " tolerated for trucks in the critical length of grade, common practice); a per-vehicle value overrides it."
@@ -126,12 +167,12 @@ class HeavyVehicleCriteriaInput(_Strict):
 class CriteriaInput(_Strict):
     """What counts as meeting the check."""
 
-    merge_speed_differential: str = Field(
-        default="8 km/h",
+    merge_speed_differential: Differential = Field(
+        default=written("8 km/h"),
         description="Merge speed = operating speed minus this (default 8 km/h, about the 5 mph of the policy tables).",
     )
-    flag_speed_differential: str = Field(
-        default="16 km/h",
+    flag_speed_differential: Annotated[float, Reads("speed", FLAG_DIFFERENTIAL, "16 km/h")] = Field(
+        default=written("16 km/h"),
         description="Speed differential to the stream at the end of the lane that is flagged as large (default 16 km/h).",
     )
     taper_credit: float = Field(
@@ -166,19 +207,20 @@ class CriteriaInput(_Strict):
 class CriticalGapInput(_Strict):
     """Critical gap of one design vehicle across drivers (log-normal)."""
 
-    mean: str = Field(description="Mean critical gap when merging at speed, e.g. '3.2 s'.")
-    sd: str = Field(description="Standard deviation across drivers, e.g. '0.8 s'.")
-    from_stop_mean: str | None = Field(
+    mean: GapTime = Field(description="Mean critical gap when merging at speed, e.g. '3.2 s'.")
+    sd: GapTime = Field(description="Standard deviation across drivers, e.g. '0.8 s'.")
+    from_stop_mean: GapTime | None = Field(
         default=None, description="Mean critical gap from a stop at the end of the lane."
     )
-    from_stop_sd: str | None = Field(default=None, description="Its standard deviation.")
+    from_stop_sd: GapTime | None = Field(default=None, description="Its standard deviation.")
 
 
 class BehaviourInput(_Strict):
     """Parameters of the active merge model (defaults and their sources in mergecheck.merge_behaviour)."""
 
-    approach_window: str = Field(
-        default="5 s", description="Stream time from which a driver picks the gap to arrive beside (default 5 s)."
+    approach_window: Annotated[float, Reads("time", APPROACH_WINDOW, "5 s")] = Field(
+        default=written("5 s"),
+        description="Stream time from which a driver picks the gap to arrive beside (default 5 s).",
     )
     lag_share: float = Field(
         default=0.5,
@@ -186,8 +228,8 @@ class BehaviourInput(_Strict):
         le=1.0,
         description="Share of the critical gap that must lie behind the merger (default 0.5).",
     )
-    follower_easing: str = Field(
-        default="0.5 m/s^2", description="Deceleration of a follower who only eases off (default 0.5 m/s^2)."
+    follower_easing: Annotated[float, Reads("acceleration", FOLLOWER_EASING, "0.5 m/s^2")] = Field(
+        default=written("0.5 m/s^2"), description="Deceleration of a follower who only eases off (default 0.5 m/s^2)."
     )
     lane_end_share: float = Field(
         default=0.5,
@@ -195,8 +237,9 @@ class BehaviourInput(_Strict):
         le=1.0,
         description="Share of the critical gap still asked for at the lane end (default 0.5).",
     )
-    pressure_distance: str = Field(
-        default="150 m", description="How far before the lane end drivers begin to accept shorter gaps (default 150 m)."
+    pressure_distance: Annotated[float, Reads("length", PRESSURE_DISTANCE, "150 m")] = Field(
+        default=written("150 m"),
+        description="How far before the lane end drivers begin to accept shorter gaps (default 150 m).",
     )
     yield_at_capacity: float = Field(
         default=0.8,
@@ -204,15 +247,19 @@ class BehaviourInput(_Strict):
         le=1.0,
         description="Probability that a lag vehicle lets a merger in at capacity density (default 0.8).",
     )
-    capacity_density: str = Field(default="28 veh/km", description="Density at capacity per lane (default 28 veh/km).")
-    forced_gap: str = Field(
-        default="0.8 s", description="Least gap a driver is let into or forces into (default 0.8 s)."
+    capacity_density: Annotated[float, Reads("density", CAPACITY_DENSITY, "28 veh/km")] = Field(
+        default=written("28 veh/km"), description="Density at capacity per lane (default 28 veh/km)."
     )
-    yield_braking: str = Field(
-        default="2.0 m/s^2", description="Deceleration a yielding or forced follower accepts (default 2.0 m/s^2)."
+    forced_gap: Annotated[float, Reads("time", FORCED_GAP, "0.8 s")] = Field(
+        default=written("0.8 s"), description="Least gap a driver is let into or forces into (default 0.8 s)."
     )
-    lane_change_time: str = Field(
-        default="4 s", description="Duration of the lane change; merges count where it is half done (default 4 s)."
+    yield_braking: Annotated[float, Reads("acceleration", YIELD_BRAKING, "2.0 m/s^2")] = Field(
+        default=written("2.0 m/s^2"),
+        description="Deceleration a yielding or forced follower accepts (default 2.0 m/s^2).",
+    )
+    lane_change_time: Annotated[float, Reads("time", LANE_CHANGE_TIME, "4 s")] = Field(
+        default=written("4 s"),
+        description="Duration of the lane change; merges count where it is half done (default 4 s).",
     )
 
 
@@ -222,22 +269,24 @@ class GapAcceptanceInput(_Strict):
     headway_model: Literal["m3", "exponential"] = Field(
         default="m3", description="Cowan's M3 (default) or negative-exponential headways in the adjacent lane."
     )
-    min_headway: str = Field(default="1.0 s", description="M3 minimum headway Delta (default 1.0 s).")
+    min_headway: Annotated[float, Reads("time", MIN_HEADWAY, "1.0 s")] = Field(
+        default=written("1.0 s"), description="M3 minimum headway Delta (default 1.0 s)."
+    )
     free_fraction: float | None = Field(
         default=None, gt=0.0, le=1.0, description="M3 share of free vehicles; default Tanner's 1 - Delta q."
     )
     reliability: float = Field(
         default=0.95, gt=0.0, lt=1.0, description="Target probability of merging by the end of the lane (default 0.95)."
     )
-    search_speed: str = Field(
-        default="15 km/h",
+    search_speed: Annotated[float, Reads("speed", SEARCH_SPEED, "15 km/h")] = Field(
+        default=written("15 km/h"),
         description=(
             "Least relative speed at which gaps pass a driver searching for one: a driver matched to the stream"
             " slows or speeds up to find a gap (default 15 km/h, an assumption)."
         ),
     )
-    minimum_merge_speed_differential: str = Field(
-        default="30 km/h",
+    minimum_merge_speed_differential: Differential = Field(
+        default=written("30 km/h"),
         description="Drivers may merge once within this of the stream's speed (default 30 km/h).",
     )
     critical_gaps: dict[str, CriticalGapInput] = Field(
@@ -260,7 +309,9 @@ class GapAcceptanceInput(_Strict):
 class DemandPeriodInput(_Strict):
     """One period of a demand profile."""
 
-    duration: str = Field(description="How long the period lasts, e.g. '30 min'.")
+    duration: Annotated[float, Reads("time", PERIOD_DURATION, "30 min")] = Field(
+        description="How long the period lasts, e.g. '30 min'."
+    )
     share: float = Field(ge=0.0, le=2.0, description="Demand in the period as a share of the design-hour demand.")
 
 
@@ -274,17 +325,19 @@ class MergeAreaInput(_Strict):
     terrain: Literal["level", "rolling"] = Field(
         default="level", description="Terrain for the truck equivalents (E_T 2.0 level, 3.0 rolling)."
     )
-    free_flow_speed: str | None = Field(
+    free_flow_speed: Annotated[float, Reads("speed", FREE_FLOW_SPEED, "105 km/h")] | None = Field(
         default=None, description="Mainline free-flow speed; default: the operating speed."
     )
-    ramp_free_flow_speed: str | None = Field(
+    ramp_free_flow_speed: Annotated[float, Reads("speed", FREE_FLOW_SPEED, "60 km/h")] | None = Field(
         default=None, description="Ramp free-flow speed; default: the controlling speed (30 km/h for a stop)."
     )
     ramp_lanes: int = Field(default=1, ge=1, le=2, description="Lanes on the ramp roadway.")
-    jam_density: str = Field(
-        default="120 veh/km", description="Jam density per lane for the queue (default 120 veh/km)."
+    jam_density: Annotated[float, Reads("density", JAM_DENSITY, "120 veh/km")] = Field(
+        default=written("120 veh/km"), description="Jam density per lane for the queue (default 120 veh/km)."
     )
-    peak_duration: str = Field(default="1 h", description="How long the design-hour demand lasts (default 1 h).")
+    peak_duration: Annotated[float, Reads("time", PEAK_DURATION, "1 h")] = Field(
+        default=written("1 h"), description="How long the design-hour demand lasts (default 1 h)."
+    )
     demand_after_peak: float = Field(
         default=0.7,
         gt=0.0,
@@ -457,13 +510,10 @@ def site_from_input(data: SiteInput, source: str) -> Site:
     if data.mainline.operating_speed is None:
         operating, operating_basis = _default_operating_speed(design, policy_file)
     else:
-        operating = q(data.mainline.operating_speed, "speed", "mainline.operating_speed")
-        operating_basis = "site file"
-    for field, value in (("mainline.design_speed", design), ("mainline.operating_speed", operating)):
-        if not MAINLINE_SPEED.holds(value):
-            raise InputError(source, field, f"{MAINLINE_SPEED.rule} for a freeway or expressway merge")
-    adjacent = q(data.mainline.adjacent_lane_flow, "flow", "mainline.adjacent_lane_flow")
-    LANE_FLOW.check(adjacent, source, "mainline.adjacent_lane_flow")
+        operating, operating_basis = data.mainline.operating_speed, "site file"
+    if not MAINLINE_SPEED.holds(design):
+        raise InputError(source, "mainline.design_speed", f"{MAINLINE_SPEED.rule} for a freeway or expressway merge")
+    adjacent = data.mainline.adjacent_lane_flow
 
     controlling: float | None = None
     if data.ramp.controlling_speed.strip().lower() != "stop":
@@ -476,25 +526,16 @@ def site_from_input(data: SiteInput, source: str) -> Site:
                 "ramp.controlling_speed",
                 "must be below the mainline operating speed: no acceleration lane is needed otherwise",
             )
-    initial: float | None = None
-    if data.ramp.initial_speed is not None:
-        initial = q(data.ramp.initial_speed, "speed", "ramp.initial_speed")
-        if initial < 0 or initial >= operating:
+    initial = data.ramp.initial_speed
+    if initial is not None:
+        if initial >= operating:
             raise InputError(source, "ramp.initial_speed", "must be at least 0 and below the mainline operating speed")
         if controlling is None and initial != 0:
             raise InputError(source, "ramp.initial_speed", "a ramp that starts from a stop has an initial speed of 0")
-    ramp_flow = q(data.ramp.flow, "flow", "ramp.flow")
-    LANE_FLOW.check(ramp_flow, source, "ramp.flow")
-
-    base_differential = q(data.criteria.merge_speed_differential, "speed", "criteria.merge_speed_differential")
-    heavy_differential = q(
-        data.criteria.heavy_vehicles.merge_speed_differential,
-        "speed",
-        "criteria.heavy_vehicles.merge_speed_differential",
-    )
-    flag = q(data.criteria.flag_speed_differential, "speed", "criteria.flag_speed_differential")
-    if flag <= 0:
-        raise InputError(source, "criteria.flag_speed_differential", "must be positive")
+    ramp_flow = data.ramp.flow
+    base_differential = data.criteria.merge_speed_differential
+    heavy_differential = data.criteria.heavy_vehicles.merge_speed_differential
+    flag = data.criteria.flag_speed_differential
     unknown = sorted(set(data.criteria.vehicles) - set(data.ramp.vehicles))
     if unknown:
         raise InputError(
@@ -520,9 +561,7 @@ def site_from_input(data: SiteInput, source: str) -> Site:
         differential = heavy_differential if heavy else base_differential
         override = data.criteria.vehicles.get(ref)
         if override is not None and override.merge_speed_differential is not None:
-            differential = q(
-                override.merge_speed_differential, "speed", f"criteria.vehicles.{ref}.merge_speed_differential"
-            )
+            differential = override.merge_speed_differential
         where = (
             f"criteria.vehicles.{ref}.merge_speed_differential"
             if override is not None and override.merge_speed_differential is not None
@@ -547,17 +586,16 @@ def site_from_input(data: SiteInput, source: str) -> Site:
     g = data.geometry
     lengths = {}
     for name in ("curve_end_to_convergence", "lane_length", "taper_length"):
-        value = q(getattr(g, name), "length", f"geometry.{name}")
+        value = getattr(g, name)
         # a taper-type entrance may have no parallel section at all
         may_be_zero = name == "curve_end_to_convergence" or (name == "lane_length" and g.entrance == "taper")
-        if value < (0.0 if may_be_zero else 1.0) or value > 5000:
-            rule = "must not be negative" if may_be_zero else "must be a positive length"
-            if name == "lane_length":
-                rule += " (0 is allowed only for a taper-type entrance)"
-            raise InputError(source, f"geometry.{name}", f"{rule} of at most 5000 m")
+        if value < (0.0 if may_be_zero else 1.0):
+            rule = "must be a positive length" + (
+                " (0 is allowed only for a taper-type entrance)" if name == "lane_length" else ""
+            )
+            raise InputError(source, f"geometry.{name}", rule)
         lengths[name] = value
-    elevation = 0.0 if g.elevation is None else q(g.elevation, "length", "geometry.elevation")
-    ELEVATION.check(elevation, source, "geometry.elevation")
+    elevation = 0.0 if g.elevation is None else g.elevation
     profile = build_profile(g.profile, source, "geometry.profile")
     path_end = lengths["curve_end_to_convergence"] + lengths["lane_length"] + lengths["taper_length"]
     for i, change in enumerate(profile.changes, start=1):
@@ -605,18 +643,11 @@ def _critical_gaps(
         return defaults.at_speed, defaults.from_stop
     field = f"gap_acceptance.critical_gaps.{ref}"
 
-    def seconds(text: str | None, name: str, fallback: float) -> float:
-        if text is None:
-            return fallback
-        value = parse_quantity(text, "time", source=source, field=f"{field}.{name}")
-        return CRITICAL_GAP.check(value, source, f"{field}.{name}")
-
-    mean = seconds(given.mean, "mean", 0.0)
-    sd = seconds(given.sd, "sd", 0.0)
+    mean, sd = given.mean, given.sd
     if mean <= 0:
         raise InputError(source, f"{field}.mean", "must be positive")
-    stop_mean = seconds(given.from_stop_mean, "from_stop_mean", defaults.from_stop.mean)
-    stop_sd = seconds(given.from_stop_sd, "from_stop_sd", defaults.from_stop.sd)
+    stop_mean = defaults.from_stop.mean if given.from_stop_mean is None else given.from_stop_mean
+    stop_sd = defaults.from_stop.sd if given.from_stop_sd is None else given.from_stop_sd
     if stop_mean <= 0:
         raise InputError(source, f"{field}.from_stop_mean", "must be positive")
     return CriticalGap(mean, sd, "site file"), CriticalGap(
@@ -625,19 +656,12 @@ def _critical_gaps(
 
 
 def _gap_settings(settings: GapAcceptanceInput, operating: float, adjacent: float, source: str) -> GapSettings:
-    def q(text: str, kind: str, name: str) -> float:
-        return parse_quantity(text, kind, source=source, field=f"gap_acceptance.{name}")
-
-    min_headway = MIN_HEADWAY.check(
-        q(settings.min_headway, "time", "min_headway"), source, "gap_acceptance.min_headway"
-    )
+    min_headway = settings.min_headway
     if min_headway * adjacent >= 1:
         raise InputError(source, "gap_acceptance.min_headway", "must be below the mean headway of the adjacent lane")
-    search = q(settings.search_speed, "speed", "search_speed")
-    if not 0 < search <= 50 / 3.6:
-        raise InputError(source, "gap_acceptance.search_speed", "must be positive and at most 50 km/h")
-    differential = q(settings.minimum_merge_speed_differential, "speed", "minimum_merge_speed_differential")
-    if not 0 <= differential < operating:
+    search = settings.search_speed
+    differential = settings.minimum_merge_speed_differential
+    if not differential < operating:
         raise InputError(
             source,
             "gap_acceptance.minimum_merge_speed_differential",
@@ -657,25 +681,18 @@ def _gap_settings(settings: GapAcceptanceInput, operating: float, adjacent: floa
 def _behaviour(given: BehaviourInput, search: float, source: str) -> MergeBehaviour:
     """The active model's parameters in SI, each within a range a driver could show."""
 
-    def q(name: str, kind: str, low: float, high: float, rule: str) -> float:
-        field = f"gap_acceptance.behaviour.{name}"
-        value = parse_quantity(getattr(given, name), kind, source=source, field=field)
-        if not low <= value <= high:
-            raise InputError(source, field, rule)
-        return value
-
     return MergeBehaviour(
         search_differential=search,
-        approach_window=q("approach_window", "time", 0.0, 30.0, "must lie between 0 and 30 s"),
+        approach_window=given.approach_window,
         lag_share=given.lag_share,
-        follower_easing=q("follower_easing", "acceleration", 0.05, 5.0, "must lie between 0.05 and 5 m/s^2"),
+        follower_easing=given.follower_easing,
         lane_end_share=given.lane_end_share,
-        pressure_distance=q("pressure_distance", "length", 1.0, 2000.0, "must lie between 1 and 2000 m"),
+        pressure_distance=given.pressure_distance,
         yield_at_capacity=given.yield_at_capacity,
-        capacity_density=q("capacity_density", "density", 0.005, 0.2, "must lie between 5 and 200 veh/km"),
-        forced_gap=q("forced_gap", "time", 0.3, 10.0, "must lie between 0.3 and 10 s"),
-        yield_braking=q("yield_braking", "acceleration", 0.1, 8.0, "must lie between 0.1 and 8 m/s^2"),
-        lane_change_time=q("lane_change_time", "time", 0.0, 15.0, "must lie between 0 and 15 s"),
+        capacity_density=given.capacity_density,
+        forced_gap=given.forced_gap,
+        yield_braking=given.yield_braking,
+        lane_change_time=given.lane_change_time,
     )
 
 
@@ -684,40 +701,19 @@ def _merge_settings(
 ) -> MergeAreaSettings:
     m = data.merge_area
 
-    def q(text: str, kind: str, field: str) -> float:
-        return parse_quantity(text, kind, source=source, field=field)
-
-    flow = None
-    if data.mainline.flow is not None:
-        flow = q(data.mainline.flow, "flow", "mainline.flow")
-        if not adjacent <= flow <= data.mainline.lanes * 3000 / 3600:
+    flow = data.mainline.flow
+    if flow is not None:
+        if not adjacent <= flow <= data.mainline.lanes * LANE_FLOW.high:
             raise InputError(
                 source, "mainline.flow", "must be at least the adjacent-lane flow and at most 3000 veh/h per lane"
             )
-    ffs = operating if m.free_flow_speed is None else q(m.free_flow_speed, "speed", "merge_area.free_flow_speed")
-    ramp_ffs = (
-        (controlling or 30 / 3.6)
-        if m.ramp_free_flow_speed is None
-        else q(m.ramp_free_flow_speed, "speed", "merge_area.ramp_free_flow_speed")
-    )
-    for field, value in (("merge_area.free_flow_speed", ffs), ("merge_area.ramp_free_flow_speed", ramp_ffs)):
-        if not 15 / 3.6 <= value <= 160 / 3.6:
-            raise InputError(source, field, "must lie between 15 and 160 km/h")
-    jam = q(m.jam_density, "density", "merge_area.jam_density")
-    if not 0.06 <= jam <= 0.2:
-        raise InputError(source, "merge_area.jam_density", "must lie between 60 and 200 veh/km per lane")
-    duration = q(m.peak_duration, "time", "merge_area.peak_duration")
-    if not 0 < duration <= 6 * 3600:
-        raise InputError(source, "merge_area.peak_duration", "must be positive and at most 6 h")
-    profile: tuple[tuple[float, float], ...] = ((duration, 1.0), (AFTER_PEAK, m.demand_after_peak))
+    ffs = operating if m.free_flow_speed is None else m.free_flow_speed
+    ramp_ffs = (controlling or 30 / 3.6) if m.ramp_free_flow_speed is None else m.ramp_free_flow_speed
+    FREE_FLOW_SPEED.check(ramp_ffs, source, "merge_area.ramp_free_flow_speed")  # the default follows the ramp
+    jam = m.jam_density
+    profile: tuple[tuple[float, float], ...] = ((m.peak_duration, 1.0), (AFTER_PEAK, m.demand_after_peak))
     if m.demand_profile is not None:
-        periods = []
-        for i, period in enumerate(m.demand_profile):
-            length = q(period.duration, "time", f"merge_area.demand_profile.{i}.duration")
-            if not 0 < length <= 24 * 3600:
-                raise InputError(source, f"merge_area.demand_profile.{i}.duration", "must be positive and at most 24 h")
-            periods.append((length, period.share))
-        profile = tuple(periods)
+        profile = tuple((period.duration, period.share) for period in m.demand_profile)
     return MergeAreaSettings(
         mainline_flow=flow,
         peak_hour_factor=m.peak_hour_factor,

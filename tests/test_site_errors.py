@@ -49,7 +49,7 @@ DELETE = object()
 
 CASES = [
     (("geometry", "profile", 1, "from"), "0 m", "geometry.profile.1.from", "increase"),
-    (("geometry", "lane_length"), "-300 m", "geometry.lane_length", "positive"),
+    (("geometry", "lane_length"), "-300 m", "geometry.lane_length", "must lie between 0 and 5000 m"),
     (("geometry", "lane_length"), "0 m", "geometry.lane_length", "positive"),
     (("geometry", "taper_length"), "0 ft", "geometry.taper_length", "positive"),
     (("ramp", "controlling_speed"), "100 km/h", "ramp.controlling_speed", "below the mainline operating speed"),
@@ -333,3 +333,33 @@ def test_a_tabulated_vehicle_is_refused_outside_physical_ranges(
                        else text.replace("- [0, 0.55]", "- " + row))  # fmt: skip
     run = cli("accel", "--vehicle", profile, "--from", "0 km/h", "--to", "50 km/h", "--grade", "0 %")
     assert run.code == 2 and "table.rows." in run.stderr and rule in run.stderr, run.stderr
+
+
+def test_a_misspelt_key_is_named_with_the_field_it_likely_means(cli: Any, repo: Path, tmp_path: Path) -> None:
+    """Before, 'lane_lenght' gave 'geometry.lane_length: required field is missing' without the key typed."""
+    site = tmp_path / "site.yaml"
+    site.write_text((repo / "examples" / "larkspur-road.yaml").read_text().replace("lane_length:", "lane_lenght:"))
+    run = cli("check", site)
+    assert run.code == 2 and "geometry.lane_lenght: unknown field: did you mean 'lane_length'?" in run.stderr
+
+
+@pytest.mark.parametrize(
+    ("old", "new", "message"),
+    [
+        ("lane_length: 300 m", "lane_length: 300", "geometry.lane_length: a unit is required: expected a length"),
+        ("adjacent_lane_flow: 1400 veh/h", "adjacent_lane_flow: 1400", "mainline.adjacent_lane_flow: a unit is required"),
+        ("operating_speed: 100 km/h", "operating_speed: 100 m", "mainline.operating_speed: wrong kind of quantity"),
+        ("operating_speed: 100 km/h", "operating_speed: 1000 km/h", "mainline.operating_speed: must lie between 40 and 160 km/h"),
+    ],
+)  # fmt: skip
+def test_site_file_quantities_say_what_is_wrong(
+    cli: Any, repo: Path, tmp_path: Path, old: str, new: str, message: str
+) -> None:
+    """A plain number gave pydantic's 'Input should be a valid string'; every quantity field now reads its unit and
+    range as the command line does (mergecheck/fields.py, ranges in mergecheck/limits.py)."""
+    site = tmp_path / "site.yaml"
+    text = (repo / "examples" / "larkspur-road.yaml").read_text()
+    assert old in text
+    site.write_text(text.replace(old, new))
+    run = cli("check", site)
+    assert run.code == 2 and message in run.stderr, run.stderr
