@@ -14,8 +14,8 @@ from typing import Any
 from .assessment import SiteAssessment, assess_many
 from .assessment import assess as _assess
 from .batch import BatchResult, SiteEntry, assess_all, ranked, read_entries
-from .exception import DesignException
-from .exception import design_exception as _design_exception
+from .exception_study import DesignException
+from .exception_study import design_exception as _design_exception
 from .inputs import validated
 from .site import Site, SiteInput, site_from_input
 from .site import load_site as _load_site

@@ -16,11 +16,11 @@ from rich.text import Text
 
 from . import __version__, api
 from .batch import assess_all, ranked, read_entries, source_files, summarize
+from .command_results import AccelerationRun, GapFigures
 from .critical_gap_estimation import ESTIMATORS, read_observations
 from .errors import InputError
-from .exception import DesignException
+from .exception_study import DesignException
 from .fields import Reads, read_option
-from .figures import vehicle_figures
 from .headways import HEADWAY_MODELS, headway_model, mean_wait
 from .inputs import ProfileFile, build_profile, check_grade, control_character, printable, read_yaml, validated
 from .limits import CRITICAL_GAP, ELEVATION, FREE_FLOW_SPEED, MIN_HEADWAY, PROBE_FLOW, VEHICLE_SPEED
@@ -30,12 +30,12 @@ from .output_files import Output, check_outputs, write_all
 from .profile import VerticalProfile
 from .report import csv_report, json_report, markdown, terminal
 from .report.document import site_document
-from .results import AccelerationRun, GapFigures
 from .shockwave import TrafficState, on_one_relation, queue_growth, shock_speed
 from .site import SiteInput, load_site
 from .sweep import parse_range, sweep
 from .trajectory import accelerate
 from .units import counts_passenger_cars, parse_quantity, show
+from .vehicle_figures import vehicle_figures
 from .vehicles import load_bundled, load_vehicle
 
 EXIT_OK, EXIT_SHORT, EXIT_INPUT, EXIT_INTERNAL = 0, 1, 2, 3

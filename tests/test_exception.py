@@ -7,7 +7,7 @@ from pathlib import Path
 import pytest
 
 from mergecheck.assessment import assess
-from mergecheck.exception import FLATTENED_GRADE, design_exception
+from mergecheck.exception_study import FLATTENED_GRADE, design_exception
 from mergecheck.site import load_site
 
 

@@ -11,8 +11,8 @@ import pytest
 PACKAGE = Path(__file__).parent.parent / "mergecheck"
 ROOMS = {
     "faces": {"api", "cli", "output_files", "__init__", "__main__"},
-    "reports": {"report", "narrative", "cautions", "figures", "results"},
-    "studies": {"assessment", "exception", "sweep", "batch", "merge_operations"},
+    "reports": {"report", "narrative", "cautions", "vehicle_figures", "command_results"},
+    "studies": {"assessment", "exception_study", "sweep", "batch", "merge_operations"},
     "inputs": {"site", "vehicles", "policy", "inputs", "units", "limits", "fields", "errors"},
     "models": {"profile", "dynamics", "acceleration", "trajectory", "headways", "critical_gaps", "stream_time",
                "renewal", "merge_behaviour", "merge_reliability", "monte_carlo", "merge_area", "shockwave",

@@ -10,7 +10,7 @@ import markdown_it
 import yaml
 
 from mergecheck.assessment import assess
-from mergecheck.exception import design_exception
+from mergecheck.exception_study import design_exception
 from mergecheck.site import load_site
 
 VOID = {"meta", "br", "hr", "img", "input", "link", "col", "area", "base", "embed", "source", "track", "wbr"}

@@ -15,7 +15,7 @@ from typing import Literal
 
 from ..assessment import SiteAssessment
 from ..cautions import CAUTIONS
-from ..exception import DesignException
+from ..exception_study import DesignException
 from ..merge_operations import MergeOperations
 from ..narrative import assumptions, summary_sentence
 from ..units import DISPLAY, UnitSystem, show

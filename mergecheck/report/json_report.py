@@ -10,14 +10,14 @@ import orjson
 from ..assessment import SiteAssessment
 from ..batch import BatchResult, BatchSummary
 from ..cautions import CAUTIONS
+from ..command_results import AccelerationRun, GapFigures
 from ..critical_gap_estimation import CriticalGapEstimate
-from ..figures import VehicleFigures
 from ..merge_area import MergeArea
 from ..merge_operations import MergeOperations
 from ..narrative import assumptions, summary_sentence
-from ..results import AccelerationRun, GapFigures
 from ..shockwave import QueueGrowth
 from ..sweep import Sweep
+from ..vehicle_figures import VehicleFigures
 
 
 def _number(value: float | None, digits: int = 6) -> float | None:

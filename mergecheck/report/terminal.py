@@ -9,14 +9,14 @@ from rich.text import Text
 
 from ..batch import BatchResult, BatchSummary
 from ..cautions import CAUTIONS
+from ..command_results import AccelerationRun, GapFigures
 from ..critical_gap_estimation import CriticalGapEstimate
-from ..figures import VehicleFigures
 from ..merge_area import MergeArea
 from ..merge_operations import MergeOperations
-from ..results import AccelerationRun, GapFigures
 from ..shockwave import QueueGrowth
 from ..sweep import Sweep
 from ..units import UnitSystem, convert, show, unit_symbol
+from ..vehicle_figures import VehicleFigures
 from .document import Items, Paragraph, SiteDocument, unit_of
 from .document import Table as DocumentTable
 from .table_rows import batch_row

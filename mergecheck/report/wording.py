@@ -6,7 +6,7 @@ from __future__ import annotations
 import numpy as np
 
 from ..assessment import SiteAssessment
-from ..exception import Mitigation
+from ..exception_study import Mitigation
 from ..merge_operations import MergeOperations
 from ..site import Site
 from ..units import UnitSystem, show

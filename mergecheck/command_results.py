@@ -1,4 +1,4 @@
-"""Immutable results that every renderer reads."""
+"""Results of the small commands (accel, gaps) that every renderer reads."""
 
 from __future__ import annotations
 
