@@ -356,12 +356,13 @@ def _policy_tables(sites: list[Site]) -> list[PolicyTable | None]:
     loaded: dict[str, PolicyTable] = {}
     tables: list[PolicyTable | None] = []
     for site in sites:
-        if site.policy_file == "none":
+        table = site.policy_choice.table
+        if table is None:
             tables.append(None)
             continue
-        if site.policy_file not in loaded:
-            loaded[site.policy_file] = load_policy(site.policy_file)
-        tables.append(loaded[site.policy_file])
+        if table not in loaded:
+            loaded[table] = load_policy(table)
+        tables.append(loaded[table])
     return tables
 
 

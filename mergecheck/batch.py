@@ -224,11 +224,12 @@ def _assess_chunk(entries: list[SiteEntry]) -> list[BatchResult]:
     for i, entry in enumerate(entries):
         try:
             site = site_from_input(entry.read(), entry.label)
-            if site.policy_file != "none":
-                if site.policy_file not in policies:
-                    policies[site.policy_file] = _policy_problem(site.policy_file)
-                if policies[site.policy_file] is not None:
-                    raise InputError(entry.label, "policy", str(policies[site.policy_file]))
+            table = site.policy_choice.table
+            if table is not None:
+                if table not in policies:
+                    policies[table] = _policy_problem(table)
+                if policies[table] is not None:
+                    raise InputError(entry.label, "policy", str(policies[table]))
             readable.append((i, site))
         except InputError as error:
             results[i] = BatchResult(label=entry.label, assessment=None, error=str(error))

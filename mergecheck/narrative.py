@@ -146,7 +146,7 @@ def assumptions(assessment: SiteAssessment) -> tuple[Assumption, ...]:
             ),
         ]
     if policy is not None:
-        items.append(Assumption("Policy table", policy.table.title, f"{site.policy_choice}; {policy.table.source}"))
+        items.append(Assumption("Policy table", policy.table.title, f"{site.policy_choice.why}; {policy.table.source}"))
         items.append(Assumption("Policy interpolation", "see rule", policy.table.interpolation))
     return tuple(items)
 

@@ -33,6 +33,18 @@ from .units import parse_quantity
 
 BUNDLED_POLICIES = {"us": "policy-aashto-2011-us.yaml", "metric": "policy-aashto-2011-metric.yaml"}
 """The bundled tables by the name a site file gives them (``policy: us`` or ``policy: metric``)."""
+
+
+@dataclass(frozen=True, slots=True)
+class PolicyChoice:
+    """Which policy table a site is checked against, and why."""
+
+    table: str | None
+    """A bundled table's name (:data:`BUNDLED_POLICIES`) or a table file's path; None for no table (policy: none)."""
+    why: str
+    """How the choice was made, for the report."""
+
+
 FLAT_GRADE_LIMIT = 0.03
 """Tables apply to grades below this without adjustment ("flat grades of less than 3 percent"). [fraction]"""
 

@@ -48,7 +48,7 @@ from .limits import (
     YIELD_BRAKING,
 )
 from .merge_behaviour import MergeBehaviour
-from .policy import BUNDLED_POLICIES, load_policy, running_speed_for
+from .policy import BUNDLED_POLICIES, PolicyChoice, load_policy, running_speed_for
 from .profile import VerticalProfile
 from .units import parse_quantity, written_in_us_customary
 from .vehicles import DesignVehicle, load_vehicle
@@ -471,10 +471,9 @@ class Site:
     """Which basis decides the site's verdict (criteria.verdict_basis)."""
     gaps: GapSettings
     merge: MergeAreaSettings
-    policy_file: str
-    """The policy table: 'us' or 'metric' (bundled), 'none', or the path of a table file."""
-    policy_choice: str = "site file"
-    """Why this table: named in the site file, or matched to the units of the design speed."""
+    policy_choice: PolicyChoice
+    """The policy table (a bundled one, a file, or none) and why: named in the site file, or matched to the units
+    of the design speed."""
 
     @property
     def taper_start(self) -> float:
@@ -506,9 +505,9 @@ def site_from_input(data: SiteInput, source: str) -> Site:
 
     design = q(data.mainline.design_speed, "speed", "mainline.design_speed")
     base_dir = Path(source).parent
-    policy_file, policy_choice = _policy_choice(data.policy, data.mainline.design_speed, base_dir, source)
+    policy_choice = _policy_choice(data.policy, data.mainline.design_speed, base_dir, source)
     if data.mainline.operating_speed is None:
-        operating, operating_basis = _default_operating_speed(design, policy_file)
+        operating, operating_basis = _default_operating_speed(design, policy_choice.table)
     else:
         operating, operating_basis = data.mainline.operating_speed, "site file"
     if not MAINLINE_SPEED.holds(design):
@@ -629,7 +628,6 @@ def site_from_input(data: SiteInput, source: str) -> Site:
         verdict_basis=data.criteria.verdict_basis,
         gaps=gaps,
         merge=_merge_settings(data, operating, controlling, adjacent, source),
-        policy_file=policy_file,
         policy_choice=policy_choice,
     )
 
@@ -728,10 +726,10 @@ def _merge_settings(
     )
 
 
-def _default_operating_speed(design: float, policy_file: str) -> tuple[float, str]:
+def _default_operating_speed(design: float, policy_file: str | None) -> tuple[float, str]:
     """The operating speed at the merge when the site gives none: the policy table's average running speed for
     the design speed (the speed its merge speeds are set against), else the design speed."""
-    if policy_file == "none":
+    if policy_file is None:
         return design, "not given, and no policy table: taken equal to the design speed (the conservative case)"
     try:
         table = load_policy(policy_file)
@@ -749,7 +747,7 @@ def _default_operating_speed(design: float, policy_file: str) -> tuple[float, st
     )
 
 
-def _policy_choice(policy: str | None, design_speed: str, base_dir: Path, source: str) -> tuple[str, str]:
+def _policy_choice(policy: str | None, design_speed: str, base_dir: Path, source: str) -> PolicyChoice:
     """The policy table a site uses and why: 'none', a bundled table by name, or a file path (relative to the
     site file). Omitted, the bundled table in the unit system the design speed is written in, so that a US
     customary design gets the US customary table and a metric design the metric one (the two were developed
@@ -757,14 +755,18 @@ def _policy_choice(policy: str | None, design_speed: str, base_dir: Path, source
     if policy is None:
         name = "us" if written_in_us_customary(design_speed) else "metric"
         unit = "US customary" if name == "us" else "metric"
-        return name, f"not named in the site file: the bundled {unit} table, as the design speed is in {unit} units"
+        return PolicyChoice(
+            name, f"not named in the site file: the bundled {unit} table, as the design speed is in {unit} units"
+        )
     named = policy.strip().lower()
-    if named == "none" or named in BUNDLED_POLICIES:
-        return named, "named in the site file"
+    if named == "none":
+        return PolicyChoice(None, "the site file says policy: none")
+    if named in BUNDLED_POLICIES:
+        return PolicyChoice(named, "named in the site file")
     path = Path(policy)
     path = path if path.is_absolute() else base_dir / path
     if not path.is_file():
         choices = ", ".join(("none", *sorted(BUNDLED_POLICIES)))
         rule = f"names no policy table: give one of {choices}, or the path of a table file (no file {policy} was found)"
         raise InputError(source, "policy", rule)
-    return str(path), "named in the site file"
+    return PolicyChoice(str(path), "named in the site file")

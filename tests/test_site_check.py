@@ -214,21 +214,21 @@ def test_the_table_follows_the_units_of_the_design_speed_unless_named(make_site:
     names another with `policy: us` or `policy: metric`. A 120 km/h design speed, beyond the US table's 70 mph,
     now gets a policy value from the metric table (120 km/h row, 60 km/h column: 410 m, FROM MEMORY)."""
     in_kmh = assess(make_site(mainline__design_speed="120 km/h"))
-    assert in_kmh.site.policy_file == "metric" and in_kmh.policy is not None
+    assert in_kmh.site.policy_choice.table == "metric" and in_kmh.policy is not None
     assert in_kmh.policy.minimum_length == pytest.approx(410.0)
     chosen = next(a for a in assumptions(in_kmh) if a.name == "Policy table").source
     assert "metric table, as the design speed is in metric units" in chosen
     named_us = assess(make_site(mainline__design_speed="120 km/h", policy="us"))
-    assert named_us.site.policy_file == "us" and named_us.policy is not None
+    assert named_us.site.policy_choice.table == "us" and named_us.policy is not None
     assert named_us.policy.minimum_length is None and "outside" in named_us.policy.note  # 74.6 mph > 70 mph
     in_mph = assess(make_site(mainline__design_speed="60 mph", mainline__operating_speed="60 mph"))
-    assert in_mph.site.policy_file == "us" and in_mph.policy is not None
+    assert in_mph.site.policy_choice.table == "us" and in_mph.policy is not None
     # 60 mph row, ramp curve 60 km/h = 37.28 mph between the 35 and 40 mph columns (800, 550 ft; FROM MEMORY)
     ramp_mph = 60 / 3.6 / 0.44704
     assert in_mph.policy.minimum_length == pytest.approx((800 + (ramp_mph - 35) / 5 * (550 - 800)) * 0.3048, rel=1e-9)
     named_metric = assess(make_site(mainline__design_speed="60 mph", mainline__operating_speed="60 mph",
                                     policy="METRIC"))  # fmt: skip
-    assert named_metric.site.policy_file == "metric"
+    assert named_metric.site.policy_choice.table == "metric"
 
 
 def test_a_per_vehicle_critical_gap_overrides_the_default(make_site: Any) -> None:
