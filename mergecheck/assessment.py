@@ -31,7 +31,7 @@ from __future__ import annotations
 
 from collections.abc import Callable
 from dataclasses import dataclass, replace
-from typing import Literal
+from typing import Literal, NamedTuple
 
 import numpy as np
 from numpy.typing import NDArray
@@ -215,22 +215,28 @@ def path_stations(site: Site, stations: FloatArray, trajectory: Trajectory) -> F
     return np.asarray(np.minimum(np.concatenate([landmarks, stations]), trajectory.end), dtype=float)
 
 
+class Landmarks(NamedTuple):
+    """A vehicle's speeds where the layout changes. [m/s]"""
+
+    convergence: float
+    taper_start: float
+    taper_end: float
+
+
 def assess_vehicle(
     site: Site,
     entry: SiteVehicle,
+    *,
     initial_speed: float,
     trajectory: Trajectory,
-    landmarks: FloatArray,
+    speeds: Landmarks,
     merge: MergeReliability,
     monte_carlo: int = 0,
     seed: int = 0,
     progress: Callable[[int], None] | None = None,
 ) -> VehicleAssessment:
-    """Read one design vehicle's trajectory and merge probability against the lane.
-
-    ``landmarks`` are its speeds at the convergence point and the start and the end of the taper.
-    """
-    at_convergence, at_taper_start, at_taper_end = (float(v) for v in landmarks)
+    """Read one design vehicle's trajectory and merge probability against the lane."""
+    at_convergence, at_taper_start, at_taper_end = speeds
     merge_station = trajectory.target_station
     available = site.available_length
     required = None if merge_station is None else max(0.0, merge_station - site.convergence)
@@ -330,19 +336,27 @@ def assess_many(
     entries = [(k, entry) for k, site in enumerate(sites) for entry in site.vehicles]
     trajectories = accelerate_many([trajectory_run(sites[k], entry, initial[k][0]) for k, entry in entries])
     stations = [merge_stations(site) for site in sites]
-    speeds = speeds_at(
+    along = speeds_at(
         trajectories,
         [path_stations(sites[k], stations[k], t) for (k, _), t in zip(entries, trajectories, strict=True)],
-    )
+    )  # each: the three landmarks (path_stations), then the merge stations
     merges = merge_reliabilities(
-        [stations[k] for k, _ in entries], [v[3:] for v in speeds], [merge_setting(sites[k], e) for k, e in entries]
+        [stations[k] for k, _ in entries], [v[3:] for v in along], [merge_setting(sites[k], e) for k, e in entries]
     )
     vehicles: list[list[VehicleAssessment]] = [[] for _ in sites]
-    for (k, entry), trajectory, v, merge in zip(entries, trajectories, speeds, merges, strict=True):
+    for (k, entry), trajectory, v, merge in zip(entries, trajectories, along, merges, strict=True):
         order = len(vehicles[k])
         vehicles[k].append(
             assess_vehicle(
-                sites[k], entry, initial[k][0], trajectory, v[:3], merge, monte_carlo, seed + order, progress
+                sites[k],
+                entry,
+                initial_speed=initial[k][0],
+                trajectory=trajectory,
+                speeds=Landmarks(*(float(x) for x in v[:3])),
+                merge=merge,
+                monte_carlo=monte_carlo,
+                seed=seed + order,
+                progress=progress,
             )
         )
     return [
