@@ -10,3 +10,10 @@ CAUTIONS: tuple[str, ...] = (
     "Policy values shown here were transcribed from memory where so labelled: verify them against the "
     "edition of the standard in force for the project.",
 )
+
+CAUTION_LINE = (
+    "Caution: these results support, and never replace, the governing agency's design standards and the judgment of"
+    " the licensed engineer responsible for the design; vehicle and driver parameters are assumptions; nothing here"
+    " establishes that a design is safe."
+)
+"""The cautions in one line, for a terminal view that points to where they are in full."""

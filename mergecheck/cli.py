@@ -79,6 +79,9 @@ def build_parser() -> argparse.ArgumentParser:
     check.add_argument(
         "--json", nargs="?", const="-", metavar="FILE", help="write JSON (SI values) to FILE, or to standard output"
     )
+    check.add_argument(
+        "--details", action="store_true", help="also show every assumption and the cautions in full on the terminal"
+    )
     check.add_argument("--markdown", metavar="FILE", help="write the report as Markdown to FILE")
     check.add_argument("--html", metavar="FILE", help="write a self-contained HTML report with figures to FILE")
     check.add_argument(
@@ -186,7 +189,8 @@ def _print_input_error(error: InputError, stderr: Console) -> int:
 def main(argv: Sequence[str] | None = None) -> int:
     arguments = [str(argument) for argument in (sys.argv[1:] if argv is None else argv)]
     # user text (site names, paths, values in messages) is never read as console markup
-    stdout = Console(width=100 if not sys.stdout.isatty() else None, highlight=False, markup=False)
+    # piped or redirected: tables at their natural width, never cut to a terminal's
+    stdout = Console(width=None if sys.stdout.isatty() else 10_000, highlight=False, markup=False)
     stderr = Console(stderr=True, highlight=False, markup=False)
     try:  # before argparse, which echoes a value it refuses as it stands
         _refuse_control_characters(arguments)
@@ -273,7 +277,7 @@ def _check(args: argparse.Namespace, out: Console, err: Console) -> int:
         sys.stdout.write(documents[0].text)
     else:
         shown = study if args.exception and not isinstance(study, bool) else None
-        out.print(terminal.site_view(site_document(assessment, args.units, shown)))
+        out.print(terminal.site_view(site_document(assessment, args.units, shown), details=args.details))
     return EXIT_OK if assessment.verdict == "meets" else EXIT_SHORT
 
 

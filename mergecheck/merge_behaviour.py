@@ -241,22 +241,6 @@ class Rules:
 _PER_CELL = ("station", "share", "closing", "forced", "yielding", "forced_lag", "lag_part")
 
 
-def plain_words(behaviour: MergeBehaviour) -> str:
-    """What the active model assumes drivers do, for a report."""
-    b = behaviour
-    return (
-        f"drivers pick, from about {b.approach_window:.0f} s of the adjacent stream seen on the approach, the gap they"
-        " arrive beside; a driver who refuses the gap beside them eases off or speeds up to bring the next one"
-        f" alongside (at least {b.search_differential * 3.6:.0f} km/h relative); the part of a gap behind the driver"
-        " must hold the lag, and a vehicle slower than the stream needs a longer gap, the more so the weaker it"
-        f" accelerates; within {b.pressure_distance:.0f} m of the end of the lane drivers accept shorter gaps (down"
-        f" to {b.lane_end_share:.0%} of their own); lag drivers let a merger in more often as the lane fills"
-        f" ({b.yield_at_capacity:.0%} of refused gaps at capacity); at the end of the lane drivers force into any"
-        f" gap of {b.forced_gap:.1f} s or more plus the closing time; a merge counts where the lane change is half"
-        " done. The length for the reliability target is read without the lane-end pressure and forced merges."
-    )
-
-
 def search_rate(speed: FloatArray, stream_speed: float, behaviour: MergeBehaviour) -> tuple[FloatArray, FloatArray]:
     """u(x) of Eq. (1) and d tau / dx, for a speed already held at merge speed. ([m/s], [s/m])"""
     u = np.minimum(np.maximum(stream_speed - speed, behaviour.search_differential), 0.95 * stream_speed)

@@ -13,11 +13,11 @@ from typing import Literal
 from .acceleration import ACCELERATION_MODELS
 from .assessment import SiteAssessment, VehicleAssessment
 from .headways import HEADWAY_MODELS
-from .merge_behaviour import SOURCES, plain_words
+from .merge_behaviour import SOURCES, MergeBehaviour
 from .merge_operations import TRUCK_EQUIVALENT
 from .site import Site
 from .trajectory import TOLERANCE
-from .units import show
+from .units import UnitSystem, show
 
 HCM = "Highway Capacity Manual, 7th ed. (Transportation Research Board, 2022)"
 """The capacity manual the merge-area method follows (its 6th-edition equations are the same)."""
@@ -32,21 +32,21 @@ class Assumption:
     source: str
 
 
-def assumptions(assessment: SiteAssessment) -> tuple[Assumption, ...]:
+def assumptions(assessment: SiteAssessment, system: UnitSystem = "si") -> tuple[Assumption, ...]:
     """Every assumption behind the result, with its value and its source, read from the code that uses it."""
     site, results, policy = assessment.site, assessment.vehicles, assessment.policy
     initial, initial_basis = assessment.initial_speed, assessment.initial_speed_basis
     items = [
         Assumption(
             "Mainline operating speed at the merge",
-            show(site.operating_speed, "speed", "si"),
+            show(site.operating_speed, "speed", system),
             site.operating_speed_basis,
         ),
-        Assumption("Speed leaving the controlling curve", show(initial, "speed", "si"), initial_basis),
-        _before_the_nose(site, results, initial),
+        Assumption("Speed leaving the controlling curve", show(initial, "speed", system), initial_basis),
+        _before_the_nose(site, results, initial, system),
         Assumption(
             "Merge speed",
-            "; ".join(f"{r.vehicle.id} {show(r.merge_speed, 'speed', 'si')}" for r in results),
+            "; ".join(f"{r.vehicle.id} {show(r.merge_speed, 'speed', system)}" for r in results),
             "operating speed less the merge speed differential; policy tables use about 5 mph (8 km/h) "
             "below the running speed for passenger cars (AASHTO Green Book basis, from memory)",
         ),
@@ -62,12 +62,14 @@ def assumptions(assessment: SiteAssessment) -> tuple[Assumption, ...]:
         ),
         Assumption(
             "Large speed differential",
-            f"above {show(site.flag_speed_differential, 'speed', 'si')} at the end of the lane",
+            f"above {show(site.flag_speed_differential, 'speed', system)} at the end of the lane",
             "crash involvement rises steeply as speed departs from the stream's (Solomon, 1964, from memory); "
             "threshold is a site criterion",
         ),
-        Assumption("Adjacent-lane headways", _headway_text(site), HEADWAY_MODELS[site.gaps.headway_model].reference),
-        _behaviour_assumption(site),
+        Assumption(
+            "Adjacent-lane headways", _headway_text(site, system), HEADWAY_MODELS[site.gaps.headway_model].reference
+        ),
+        _behaviour_assumption(site, system),
         Assumption(
             "Merge reliability target",
             f"{site.gaps.reliability:.0%} of drivers merged by the end of the lane",
@@ -75,7 +77,7 @@ def assumptions(assessment: SiteAssessment) -> tuple[Assumption, ...]:
         ),
         Assumption(
             "Elevation at station 0",
-            show(site.elevation, "length", "si"),
+            show(site.elevation, "length", system),
             "site file (0 m if not given); lowers air density and engine power",
         ),
         Assumption(
@@ -122,7 +124,7 @@ def assumptions(assessment: SiteAssessment) -> tuple[Assumption, ...]:
             ),
             Assumption(
                 "Acceleration length for the merge-area check",
-                f"lane plus taper, {show(site.lane_length + site.taper_length, 'length', 'si')}",
+                f"lane plus taper, {show(site.lane_length + site.taper_length, 'length', system)}",
                 "the manual's L_A includes the taper; the policy-table length does not (converted here)",
             ),
             Assumption(
@@ -151,18 +153,20 @@ def assumptions(assessment: SiteAssessment) -> tuple[Assumption, ...]:
     return tuple(items)
 
 
-def _before_the_nose(site: Site, results: tuple[VehicleAssessment, ...], initial: float) -> Assumption:
+def _before_the_nose(
+    site: Site, results: tuple[VehicleAssessment, ...], initial: float, system: UnitSystem
+) -> Assumption:
     """Speed gained between the end of the controlling curve and the convergence point, and whether it counts."""
-    before = show(site.convergence, "length", "si")
+    before = show(site.convergence, "length", system)
     if site.acceleration_from == "convergence":
         return Assumption(
             "Speed gained before the convergence point",
-            f"none counted: every vehicle is taken at {show(initial, 'speed', 'si')} at the convergence point "
+            f"none counted: every vehicle is taken at {show(initial, 'speed', system)} at the convergence point "
             f"({before} of ramp before it ignored)",
             "site criterion acceleration_from: convergence (policy-strict, as the policy tables assume)",
         )
     gained = "; ".join(
-        f"{r.vehicle.id} {show(r.initial_speed, 'speed', 'si')} to {show(r.speed_at_convergence, 'speed', 'si')}"
+        f"{r.vehicle.id} {show(r.initial_speed, 'speed', system)} to {show(r.speed_at_convergence, 'speed', system)}"
         for r in results
     )
     return Assumption(
@@ -173,30 +177,28 @@ def _before_the_nose(site: Site, results: tuple[VehicleAssessment, ...], initial
     )
 
 
-def _behaviour_assumption(site: Site) -> Assumption:
+def _behaviour_assumption(site: Site, system: UnitSystem) -> Assumption:
     """Which merge behaviour the probability assumes, in plain words, with its sources."""
-    allowed = (
-        f"merging allowed past the convergence point at {show(site.gaps.minimum_merge_speed, 'speed', 'si')} or more; "
-    )
+    allowed = f"merging allowed past the convergence point at {show(site.gaps.minimum_merge_speed, 'speed', system)} or more; "
     b = site.gaps.behaviour
     if b is None:
         return Assumption(
             "Merge behaviour (classic model)",
             allowed + f"each driver waits for a gap of at least their critical gap to drift past at "
-            f"{show(site.gaps.search_speed, 'speed', 'si')} relative speed or more, holds merge speed, never forces in",
+            f"{show(site.gaps.search_speed, 'speed', system)} relative speed or more, holds merge speed, never forces in",
             "Drew (1968), Traffic Flow Theory and Control, ch. 9 (from memory); moving-observer relation",
         )
     sources = "; ".join(f"{name.replace('_', ' ')}: {text}" for name, text in SOURCES.items())
-    return Assumption("Merge behaviour (active model)", allowed + plain_words(b), sources)
+    return Assumption("Merge behaviour (active model)", allowed + _behaviour_words(b, system), sources)
 
 
-def _headway_text(site: Site) -> str:
+def _headway_text(site: Site, system: UnitSystem) -> str:
     g = site.gaps
-    model = f"{HEADWAY_MODELS[g.headway_model].summary}, at {show(site.adjacent_lane_flow, 'flow', 'si')}"
+    model = f"{HEADWAY_MODELS[g.headway_model].summary}, at {show(site.adjacent_lane_flow, 'flow', system)}"
     if g.headway_model == "exponential":
         return model
     free = "Tanner's 1 - Delta q" if g.free_fraction is None else f"{g.free_fraction:.2f}"
-    return f"{model}, minimum headway {show(g.min_headway, 'time', 'si')}, free share {free}"
+    return f"{model}, minimum headway {show(g.min_headway, 'time', system)}, free share {free}"
 
 
 def summary_sentence(assessment: SiteAssessment, system: Literal["si", "us"]) -> str:
@@ -235,4 +237,20 @@ def summary_sentence(assessment: SiteAssessment, system: Literal["si", "us"]) ->
         f"({show(g.required_length, 'length', system)} to reach merge speed, "
         f"{show(g.merge.length_for_reliability, 'length', system)} for a {g.merge.reliability:.0%} chance of a gap); "
         f"{merged}."
+    )
+
+
+def _behaviour_words(behaviour: MergeBehaviour, system: UnitSystem) -> str:
+    """What the active model assumes drivers do, for a report."""
+    b = behaviour
+    return (
+        f"drivers pick, from about {b.approach_window:.0f} s of the adjacent stream seen on the approach, the gap they"
+        " arrive beside; a driver who refuses the gap beside them eases off or speeds up to bring the next one"
+        f" alongside (at least {show(b.search_differential, 'speed', system)} relative); the part of a gap behind the driver"
+        " must hold the lag, and a vehicle slower than the stream needs a longer gap, the more so the weaker it"
+        f" accelerates; within {show(b.pressure_distance, 'length', system)} of the end of the lane drivers accept shorter gaps (down"
+        f" to {b.lane_end_share:.0%} of their own); lag drivers let a merger in more often as the lane fills"
+        f" ({b.yield_at_capacity:.0%} of refused gaps at capacity); at the end of the lane drivers force into any"
+        f" gap of {show(b.forced_gap, 'time', system)} or more plus the closing time; a merge counts where the lane change is half"
+        " done. The length for the reliability target is read without the lane-end pressure and forced merges."
     )

@@ -7,7 +7,7 @@ from typing import Any
 
 import pytest
 
-from mergecheck.cautions import CAUTIONS
+from mergecheck.cautions import CAUTION_LINE, CAUTIONS
 
 EX = Path(__file__).parent.parent / "examples"
 COMMANDS = [
@@ -47,11 +47,20 @@ COMMANDS = [
 
 @pytest.mark.parametrize("args", COMMANDS, ids=[c[0] for c in COMMANDS])
 def test_terminal_and_json_carry_cautions(cli: Any, args: list[str]) -> None:
+    """The terminal carries the cautions in one line and says where they are in full; the JSON in full."""
     text = cli(*args)
     assert text.code == 0, text.stderr  # each command here passes its check or has no verdict
-    assert "Cautions" in text.stdout and "licensed engineer" in text.stdout
+    assert CAUTION_LINE in " ".join(text.stdout.split()) and "Full cautions:" in text.stdout
     document = cli(*args, "--json").json()
     assert document["cautions"] == list(CAUTIONS)
+
+
+def test_check_details_show_every_assumption_and_the_cautions_in_full(cli: Any) -> None:
+    brief = cli("check", EX / "larkspur-road.yaml")
+    full = cli("check", EX / "larkspur-road.yaml", "--details")
+    assert "Assumptions" not in brief.stdout and "Assumptions" in full.stdout
+    for caution in CAUTIONS:
+        assert caution in " ".join(full.stdout.split())
 
 
 def test_batch_outputs_carry_cautions(cli: Any, tmp_path: Path) -> None:

@@ -68,7 +68,7 @@ def test_issue_minimal_form(cli: Any, repo: Path) -> None:
     run = cli("check", repo / "examples" / "larkspur-road.yaml")
     assert run.code == 1
     assert "Verdict: SHORT" in run.stdout and "semitrailer-design" in run.stdout
-    assert "Cautions" in run.stdout and "licensed engineer" in run.stdout
+    assert "Caution:" in run.stdout and "licensed engineer" in run.stdout
     assert "Finding a gap" in run.stdout and "Stops" in run.stdout
 
 

@@ -150,7 +150,7 @@ def site_document(
             (
                 Table(
                     (("Item", "text"), ("Value", "text"), ("Source", "text")),
-                    tuple((Value(x.name), Value(x.value), Value(x.source)) for x in assumptions(a)),
+                    tuple((Value(x.name), Value(x.value), Value(x.source)) for x in assumptions(a, system)),
                 ),
             ),
         )

@@ -8,7 +8,7 @@ from rich.table import Table
 from rich.text import Text
 
 from ..batch import BatchResult, BatchSummary
-from ..cautions import CAUTIONS
+from ..cautions import CAUTION_LINE, CAUTIONS
 from ..command_results import AccelerationRun, GapFigures
 from ..critical_gap_estimation import CriticalGapEstimate
 from ..merge_area import MergeArea
@@ -136,8 +136,9 @@ _FLAG_STYLE = {
 _TONE_STYLE = {"plain": "", "quiet": "dim", "warning": "yellow", "strong": "bold"}
 
 
-def site_view(document: SiteDocument) -> RenderableType:
-    """The site report (:mod:`mergecheck.report.document`): the verdict first, then each section in turn."""
+def site_view(document: SiteDocument, *, details: bool = False) -> RenderableType:
+    """The site report (:mod:`mergecheck.report.document`): the verdict first, then each section in turn; the
+    assumptions and the cautions in full only with ``details`` (a line says where they are)."""
     system = document.system
     parts: list[RenderableType] = [
         Text.assemble(
@@ -151,6 +152,8 @@ def site_view(document: SiteDocument) -> RenderableType:
         Text(document.summary),
     ]
     for section in document.sections:
+        if section.key == "assumptions" and not details:
+            continue
         parts += [Text(""), Text(section.title, style="bold underline")]
         for block in section.blocks:
             if isinstance(block, Items):
@@ -162,7 +165,8 @@ def site_view(document: SiteDocument) -> RenderableType:
                 parts.append(_table(block, system))
             elif isinstance(block, Paragraph):
                 parts.append(Text(block.text, style=_TONE_STYLE[block.tone]))
-    parts.append(cautions_block(document.cautions))
+    where = "--details, or the --markdown, --html and --json reports, which carry them with every assumption"
+    parts.append(cautions_block(document.cautions, full=details, where=where))
     return Group(*parts)
 
 
@@ -370,10 +374,13 @@ def _grid() -> Table:
     return table
 
 
-def cautions_block(cautions: tuple[str, ...] = CAUTIONS) -> RenderableType:
-    """The cautions every report carries."""
+def cautions_block(cautions: tuple[str, ...] = CAUTIONS, *, full: bool = True, where: str = "") -> RenderableType:
+    """The cautions every report carries: in full, or in one line with where the full text is."""
+    if not full:
+        return Group(Text(""), Text(f"{CAUTION_LINE} Full cautions: {where}.", style="bold"))
     return Group(Text(""), Text("Cautions", style="bold"), *(Text(f"• {c}") for c in cautions))
 
 
 def with_cautions(body: RenderableType) -> RenderableType:
-    return Group(body, cautions_block())
+    """A small command's view: the cautions in one line (in full in its --json document)."""
+    return Group(body, cautions_block(full=False, where="in the --json document"))
