@@ -38,7 +38,8 @@ from __future__ import annotations
 
 import gc
 import os
-from collections.abc import Callable, Iterator, Mapping
+import re
+from collections.abc import Callable, Iterator, Mapping, Sequence
 from concurrent.futures import ProcessPoolExecutor
 from contextlib import contextmanager, nullcontext
 from dataclasses import dataclass
@@ -93,11 +94,38 @@ def source_files(path: str) -> list[Path]:
     return [source]
 
 
+_OTHER_FILES = (
+    (re.compile(r"^(model|parameters)\s*:", re.MULTILINE), "a vehicle profile"),
+    (re.compile(r"^(highway_speeds|lengths)\s*:", re.MULTILINE), "a policy table"),
+)
+_SITE_KEY = re.compile(r"^mainline\s*:", re.MULTILINE)
+
+
+def not_a_site(path: Path) -> str | None:
+    """What a YAML file in a folder of sites is, when it is clearly something else (a vehicle profile, a policy
+    table: no top-level ``mainline`` and that kind's own keys); None for a site or anything unclear."""
+    try:
+        text = path.read_text(encoding="utf-8", errors="replace")
+    except OSError:
+        return None  # unreadable: reported as such when it is read
+    if _SITE_KEY.search(text):
+        return None
+    return next((kind for pattern, kind in _OTHER_FILES if pattern.search(text)), None)
+
+
+def skipped_files(path: str) -> list[str]:
+    """The files of a folder of sites that are clearly not sites, each with what it is."""
+    if not Path(path).is_dir():
+        return []
+    return [f"{printable(f.name)} ({kind}, not a site)" for f in source_files(path) if (kind := not_a_site(f))]
+
+
 def read_entries(path: str) -> list[SiteEntry]:
-    """Sites from a folder of site files, a YAML file with a list of sites, or a CSV with one site a row."""
+    """Sites from a folder of site files (other files clearly not sites, such as vehicle profiles, left out: see
+    :func:`skipped_files`), a YAML file with a list of sites, or a CSV with one site a row."""
     source = Path(path)
     if source.is_dir():
-        files = source_files(path)
+        files = [f for f in source_files(path) if not_a_site(f) is None]
         if not files:
             raise InputError(path, "", "the folder holds no .yaml site files")
         return [SiteEntry(printable(str(f)), partial(read_yaml, str(f))) for f in files]
@@ -203,7 +231,12 @@ def assess_entry(entry: SiteEntry) -> BatchResult:
     try:
         return BatchResult(label=entry.label, assessment=assess(site_from_input(entry.read(), entry.label)), error=None)
     except InputError as error:
-        return BatchResult(label=entry.label, assessment=None, error=str(error))
+        return BatchResult(label=entry.label, assessment=None, error=_reason(error, entry.label))
+
+
+def _reason(error: InputError, label: str) -> str:
+    """Why an entry could not be read, without repeating the entry it belongs to."""
+    return str(error).removeprefix(f"{label}: ")
 
 
 def assess_chunk(entries: list[SiteEntry]) -> list[BatchResult]:
@@ -232,7 +265,7 @@ def _assess_chunk(entries: list[SiteEntry]) -> list[BatchResult]:
                     raise InputError(entry.label, "policy", str(policies[table]))
             readable.append((i, site))
         except InputError as error:
-            results[i] = BatchResult(label=entry.label, assessment=None, error=str(error))
+            results[i] = BatchResult(label=entry.label, assessment=None, error=_reason(error, entry.label))
     assessments = assess_many([site for _, site in readable]) if readable else []  # a chunk may be all unreadable
     for (i, _), assessment in zip(readable, assessments, strict=True):
         results[i] = BatchResult(label=entries[i].label, assessment=assessment.figures_only(), error=None)
@@ -314,9 +347,11 @@ class BatchSummary:
     """Sites where the governing vehicle never reaches merge speed."""
     short_by_vehicle: dict[str, int]
     """How many short sites each design vehicle governs."""
+    skipped: tuple[str, ...] = ()
+    """Files of the folder left out as clearly not sites, each with what it is."""
 
 
-def summarize(results: list[BatchResult]) -> BatchSummary:
+def summarize(results: list[BatchResult], skipped: Sequence[str] = ()) -> BatchSummary:
     assessed = [r.assessment for r in results if r.assessment is not None]
     short = [a for a in assessed if a.verdict == "short"]
     by_vehicle: dict[str, int] = {}
@@ -329,4 +364,5 @@ def summarize(results: list[BatchResult]) -> BatchSummary:
         unreadable=len(results) - len(assessed),
         cannot_reach=sum(a.governing.verdict == "cannot-reach" for a in assessed),
         short_by_vehicle=dict(sorted(by_vehicle.items(), key=lambda kv: -kv[1])),
+        skipped=tuple(skipped),
     )

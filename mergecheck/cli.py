@@ -15,7 +15,7 @@ from rich.progress import MofNCompleteColumn, Progress
 from rich.text import Text
 
 from . import __version__, api
-from .batch import assess_all, ranked, read_entries, source_files, summarize
+from .batch import assess_all, ranked, read_entries, skipped_files, source_files, summarize
 from .command_results import AccelerationRun, GapFigures
 from .critical_gap_estimation import ESTIMATORS, read_observations
 from .errors import InputError
@@ -413,7 +413,7 @@ def _batch(args: argparse.Namespace, out: Console, err: Console) -> int:
     else:
         results = assess_all(entries, workers=args.workers)
     results = ranked(results)
-    summary = summarize(results)
+    summary = summarize(results, skipped_files(args.input))
     render: dict[str, Callable[[], str | Iterator[str]]] = {
         "--json": lambda: json_report.batch_json(results, summary),
         "--csv": lambda: csv_report.batch_csv(results, args.units),

@@ -232,7 +232,25 @@ def pydantic_error(error: ValidationError, source: str) -> InputError:
         message = "unknown field" + (f": did you mean {near[0]!r}?" if near else "")
     elif first["type"] == "missing":
         message = "required field is missing"
+    elif first["type"] in _PLAIN:
+        message = f"{_PLAIN[first['type']]}, got {first['input']!r}"[:300]
     return InputError(source, path, message)
+
+
+_PLAIN = {
+    "model_type": "must be a mapping of fields (one 'key: value' a line beneath it)",
+    "model_attributes_type": "must be a mapping of fields (one 'key: value' a line beneath it)",
+    "dict_type": "must be a mapping (one 'key: value' a line beneath it)",
+    "list_type": "must be a list (one '- item' a line beneath it)",
+    "string_type": "must be text",
+    "int_type": "must be a whole number",
+    "int_parsing": "must be a whole number",
+    "int_from_float": "must be a whole number",
+    "float_type": "must be a number",
+    "float_parsing": "must be a number",
+    "bool_type": "must be true or false",
+}
+"""pydantic's error types in the site file's words (its own messages name internal classes)."""
 
 
 def validated(raw: Any, model: type[Model], source: str, what: str) -> Model:

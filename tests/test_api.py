@@ -38,7 +38,7 @@ def test_batch_of_mappings_reports_the_unreadable_one_and_ranks_the_rest(repo: P
     bad = {**good, "mainline": {**good["mainline"], "lanes": "three"}}
     results = mergecheck.assess_batch([good, bad], workers=1)
     assert [r.assessment is None for r in results] == [True, False]  # unreadable first, worst first
-    assert "site 2: mainline.lanes" in str(results[0].error)
+    assert results[0].label == "site 2" and str(results[0].error).startswith("mainline.lanes: must be a whole number")
     records = mergecheck.vehicle_records(results)
     assert {r["vehicle"] for r in records} == {v.vehicle.id for v in results[1].assessment.vehicles}  # type: ignore[union-attr]
     assert all(r["available_length_m"] == 300.0 for r in records)

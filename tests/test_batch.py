@@ -183,3 +183,23 @@ def test_worker_processes_give_the_same_results(repo: Path, monkeypatch: pytest.
     for a, b in zip(in_workers, in_process, strict=True):
         assert a.assessment is not None and b.assessment is not None
         assert site_json(a.assessment) == site_json(b.assessment)
+
+
+def test_a_folder_of_sites_leaves_out_what_is_clearly_not_a_site(cli: Any, repo: Path, tmp_path: Path) -> None:
+    """A vehicle profile or a policy table kept beside the sites was the first 'unreadable site' and made the batch
+    exit 2; it is now left out and named, and an unreadable site is reported without its path twice."""
+    folder = tmp_path / "sites"
+    folder.mkdir()
+    (folder / "a.yaml").write_text((repo / "examples" / "willowmere-level.yaml").read_text())
+    (folder / "truck.yaml").write_text((repo / "vehicle_profiles" / "bus.yaml").read_text())
+    (folder / "table.yaml").write_text((repo / "examples" / "agency-policy-table.yaml").read_text())
+    run = cli("batch", folder, "--json", tmp_path / "out.json")
+    assert run.code == 0, run.stdout
+    summary = json.loads((tmp_path / "out.json").read_text())["summary"]
+    assert summary["sites"] == 1 and summary["skipped"] == [
+        "table.yaml (a policy table, not a site)",
+        "truck.yaml (a vehicle profile, not a site)",
+    ]
+    (folder / "broken.yaml").write_text("name: x\nmainline: 3\n")
+    run = cli("batch", folder)
+    assert run.code == 2 and run.stdout.count("broken.yaml") == 1 and "mainline: must be a mapping" in run.stdout

@@ -286,6 +286,7 @@ def batch_json(results: list[BatchResult], summary: BatchSummary) -> Iterator[st
             "meets": summary.meets,
             "short": summary.short,
             "unreadable": summary.unreadable,
+            "skipped": list(summary.skipped),
             "cannot_reach": summary.cannot_reach,
             "short_by_governing_vehicle": summary.short_by_vehicle,
         },

@@ -87,6 +87,7 @@ def batch_markdown(results: list[BatchResult], summary: BatchSummary, system: Un
         "Short sites by governing vehicle: "
         + ("; ".join(f"`{v}` {n}" for v, n in summary.short_by_vehicle.items()) or "none"),
         "",
+        *([f"Left out, not site files: {_cell('; '.join(summary.skipped))}", ""] if summary.skipped else []),
         f"| # | Site | Verdict | Governing vehicle | Needed ({l_unit}) | Available ({l_unit}) | Deficit ({l_unit}) "
         f"| Policy minimum ({l_unit}) | Differential at end of lane ({v_unit}) | Merged by end of lane | LOS |",
         "|--:|---|---|---|--:|--:|--:|--:|--:|--:|---|",

@@ -303,6 +303,7 @@ def batch_view(results: list[BatchResult], summary: BatchSummary, system: UnitSy
         (f"{summary.unreadable} unreadable", "bold red" if summary.unreadable else ""),
     )
     by_vehicle = "; ".join(f"{v} governs {n}" for v, n in summary.short_by_vehicle.items()) or "-"
+    skipped = Text(f"Left out, not site files: {'; '.join(summary.skipped)}") if summary.skipped else Text("")
     table = Table(title="Sites, worst first", title_justify="left")
     table.add_column("#", justify="right")
     table.add_column("Site", overflow="fold", ratio=1, min_width=28)
@@ -336,7 +337,7 @@ def batch_view(results: list[BatchResult], summary: BatchSummary, system: UnitSy
             row["deficit"] or "-",
             row["speed_differential_at_lane_end"],
         )
-    parts: list[RenderableType] = [head, Text(f"Short sites by governing vehicle: {by_vehicle}"), Text(""), table]
+    parts: list[RenderableType] = [head, Text(f"Short sites by governing vehicle: {by_vehicle}"), skipped, table]
     rest = len(results) - BATCH_ROWS_SHOWN
     if rest > 0:
         parts.append(Text(f"... and {rest} more sites, ranked after these: --csv FILE or --json FILE lists them all."))
