@@ -50,6 +50,24 @@ class _Parser(argparse.ArgumentParser):
         self.exit(EXIT_INPUT, f"mergecheck: error: {message}\n")
 
 
+_QUANTITY_OPTIONS = frozenset({
+    "initial", "target", "grade", "elevation", "flow", "critical_gap", "min_headway", "mainline_flow", "ramp_flow",
+    "accel_length", "ffs", "ramp_ffs", "arrive", "arrive_density", "arrive_speed", "discharge", "discharge_density",
+    "discharge_speed", "duration", "vary",
+})  # fmt: skip
+"""Options that take a quantity (a number and its unit), which may come as two words, unquoted."""
+
+
+def _words_allowed(parser: argparse.ArgumentParser) -> None:
+    """Let the quantity options take their value as several words ('--from 0 km/h'); file names never."""
+    for action in parser._actions:
+        if isinstance(action, argparse._SubParsersAction):
+            for sub in action.choices.values():
+                _words_allowed(sub)
+        elif action.dest in _QUANTITY_OPTIONS:
+            action.nargs = "+"
+
+
 def build_parser() -> argparse.ArgumentParser:
     parser = _Parser(prog="mergecheck", description="Check an entrance ramp's acceleration lane and merge.")
     parser.add_argument("--version", action="version", version=f"mergecheck {__version__}")
@@ -121,8 +139,8 @@ def build_parser() -> argparse.ArgumentParser:
     gaps.set_defaults(run=_gaps)
     gaps.add_argument("--flow", required=True, help="flow in the lane, e.g. '1400 veh/h'")
     gaps.add_argument("--critical-gap", required=True, help="critical gap, e.g. '3.5 s'")
-    gaps.add_argument("--model", choices=sorted(HEADWAY_MODELS), default="exponential", help="headway model")
-    gaps.add_argument("--min-headway", default="1.0 s", help="M3 minimum headway (default 1.0 s)")
+    gaps.add_argument("--model", choices=sorted(HEADWAY_MODELS), default="m3", help="headway model (default m3)")
+    gaps.add_argument("--min-headway", help="M3 minimum headway (default 1.0 s)")
     gaps.add_argument("--free-fraction", type=float, help="M3 share of free vehicles (default Tanner's 1 - Delta q)")
     gaps.add_argument("--json", action="store_true", help="write JSON to standard output")
 
@@ -167,6 +185,7 @@ def build_parser() -> argparse.ArgumentParser:
     estimate.add_argument("observations", help="CSV with accepted_gap_s and largest_rejected_gap_s per driver")
     estimate.add_argument("--method", choices=sorted(ESTIMATORS), default="mle", help="estimator (default mle)")
     estimate.add_argument("--json", action="store_true", help="write JSON to standard output")
+    _words_allowed(parser)
     return parser
 
 
@@ -197,6 +216,9 @@ def main(argv: Sequence[str] | None = None) -> int:
     except InputError as error:
         return _print_input_error(error, stderr)
     args = build_parser().parse_args(arguments)
+    for name in _QUANTITY_OPTIONS & vars(args).keys():  # a quantity given as two words, unquoted: --from 0 km/h
+        if isinstance(getattr(args, name), list):
+            setattr(args, name, " ".join(getattr(args, name)))
     try:
         handler: Handler = args.run
         return handler(args, stdout, stderr)
@@ -287,8 +309,13 @@ def _gaps(args: argparse.Namespace, out: Console, err: Console) -> int:
     if not gap > 0:
         raise InputError("command line", "--critical-gap", "must be positive")
     min_headway = None
-    if args.model == "m3":
-        min_headway = read_option(args.min_headway, Reads("time", MIN_HEADWAY, "1.0 s"), "--min-headway")
+    if args.model != "m3":
+        for option, given in (("--min-headway", args.min_headway), ("--free-fraction", args.free_fraction)):
+            if given is not None:
+                raise InputError("command line", option, f"only the m3 model takes it, not {args.model}")
+    else:
+        text = "1.0 s" if args.min_headway is None else args.min_headway
+        min_headway = read_option(text, Reads("time", MIN_HEADWAY, "1.0 s"), "--min-headway")
         if min_headway * flow >= 1:
             raise InputError("command line", "--min-headway", "must be below the mean headway 1/q")
         if args.free_fraction is not None and not 0.01 <= args.free_fraction <= 1:

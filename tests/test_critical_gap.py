@@ -143,14 +143,18 @@ def test_missing_column(cli: Any, tmp_path: Path) -> None:
 def test_gaps_command_figures(cli: Any) -> None:
     """1200 veh/h random arrivals, T = 4 s: P = e^{-4/3} = 0.26360, 316.3 such gaps per hour,
     Adams' wait (e^{4/3} - 1)/q - T = 4.381 s (by hand)."""
-    run = cli("gaps", "--flow", "1200 veh/h", "--critical-gap", "4 s", "--json")
+    run = cli("gaps", "--flow", "1200 veh/h", "--critical-gap", "4 s", "--model", "exponential", "--json")
     assert run.code == 0
     doc = run.json()
     assert doc["p_headway_at_least"] == pytest.approx(np.exp(-4 / 3), rel=1e-6)
     assert doc["acceptable_gaps_per_h"] == pytest.approx(1200 * np.exp(-4 / 3), rel=1e-6)
     assert doc["mean_wait_s"] == pytest.approx((np.exp(4 / 3) - 1) * 3 - 4, rel=1e-4)
-    m3 = cli("gaps", "--flow", "1200 veh/h", "--critical-gap", "4 s", "--model", "m3", "--json").json()
-    assert m3["p_headway_at_least"] == pytest.approx(2 / 3 * np.exp(-1), rel=1e-6)  # Cowan M3, Tanner alpha
+    m3 = cli("gaps", "--flow", "1200 veh/h", "--critical-gap", "4 s", "--json").json()  # the default, as in a site
+    assert m3["model"] == "m3" and m3["p_headway_at_least"] == pytest.approx(2 / 3 * np.exp(-1), rel=1e-6)  # Tanner
+    unused = cli(
+        "gaps", "--flow", "1200 veh/h", "--critical-gap", "4 s", "--model", "exponential", "--free-fraction", "1.2"
+    )
+    assert unused.code == 2 and "--free-fraction: only the m3 model takes it" in unused.stderr
 
 
 @pytest.mark.parametrize(

@@ -363,3 +363,14 @@ def test_site_file_quantities_say_what_is_wrong(
     site.write_text(text.replace(old, new))
     run = cli("check", site)
     assert run.code == 2 and message in run.stderr, run.stderr
+
+
+def test_a_quantity_option_may_be_given_unquoted(cli: Any, repo: Path) -> None:
+    """'--from 0 km/h' unquoted used to end in 'unrecognized arguments: km/h km/h %'; the words are one value."""
+    quoted = cli("accel", "--vehicle", "bus", "--from", "0 km/h", "--to", "60 km/h", "--grade", "-2 %", "--json")
+    unquoted = cli(
+        "accel", "--vehicle", "bus", "--from", "0", "km/h", "--to", "60", "km/h", "--grade", "-2", "%", "--json"
+    )
+    assert unquoted.code == 0 and unquoted.json() == quoted.json()
+    files = cli("check", repo / "examples" / "willowmere-level.yaml", "--html", "x", "y")
+    assert files.code == 2 and "unrecognized arguments: y" in files.stderr  # a file name is never joined
