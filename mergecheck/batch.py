@@ -98,6 +98,7 @@ _OTHER_FILES = (
     (re.compile(r"^(model|parameters)\s*:", re.MULTILINE), "a vehicle profile"),
     (re.compile(r"^(highway_speeds|lengths)\s*:", re.MULTILINE), "a policy table"),
 )
+_PLAIN_NUMBER = re.compile(r"\s*[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?\s*")
 _SITE_KEY = re.compile(r"^mainline\s*:", re.MULTILINE)
 
 
@@ -161,7 +162,12 @@ def csv_row_to_site(row: Mapping[str, str | None], label: str) -> dict[str, Any]
         for suffix, unit in UNIT_SUFFIXES.items():
             value = cells.get(f"{field}_{suffix}")
             if value:
-                return value if value.lower() == "stop" else f"{value} {unit}"
+                if value.lower() == "stop":
+                    return value
+                if not _PLAIN_NUMBER.fullmatch(value):
+                    rule = f"the column's unit ({unit}) is in its heading: give the number alone, not {value!r}"
+                    raise InputError(label, f"{field}_{suffix}", rule)
+                return f"{value} {unit}"
         value = cells.get(field)
         if value:
             return value

@@ -203,3 +203,17 @@ def test_a_folder_of_sites_leaves_out_what_is_clearly_not_a_site(cli: Any, repo:
     (folder / "broken.yaml").write_text("name: x\nmainline: 3\n")
     run = cli("batch", folder)
     assert run.code == 2 and run.stdout.count("broken.yaml") == 1 and "mainline: must be a mapping" in run.stdout
+
+
+def test_a_unit_in_a_unit_suffixed_csv_column_is_named(cli: Any, tmp_path: Path) -> None:
+    """Before, '35 km/h' under controlling_speed_kmh was read as '35 km/h km/h' and refused as such."""
+    rows = tmp_path / "sites.csv"
+    rows.write_text(
+        "name,design_speed_kmh,lanes,adjacent_lane_flow_veh_h,controlling_speed_kmh,ramp_flow_veh_h,vehicles,"
+        "entrance,curve_end_to_convergence_m,lane_length_m,taper_length_m,grade_pct\n"
+        "A,100,3,900,35 km/h,500,passenger-car:1,parallel,100,300,90,1\n"
+    )
+    run = cli("batch", rows)
+    assert run.code == 2
+    message = "controlling_speed_kmh: the column's unit (km/h) is in its heading: give the number alone, not '35 km/h'"
+    assert message in " ".join(run.stdout.split())
