@@ -131,11 +131,12 @@ def vehicle_records(
     return records
 
 
-def to_json(result: SiteAssessment) -> str:
-    """The ``check --json`` document (SI values under stable keys)."""
+def to_json(result: SiteAssessment, *, exception: bool | DesignException = False) -> str:
+    """The ``check --json`` document (SI values under stable keys), with the design-exception study when a
+    vehicle falls short or ``exception`` is set (or given)."""
     from .report import json_report
 
-    return json_report.dumps(json_report.site_json(result))
+    return json_report.dumps(json_report.site_json(result, _exception(result, exception)))
 
 
 def to_markdown(result: SiteAssessment, *, units: UnitSystem = "si", exception: bool | DesignException = False) -> str:
@@ -155,10 +156,10 @@ def to_html(result: SiteAssessment, *, units: UnitSystem = "si", exception: bool
     return html.site_html(site_document(result, units, _exception(result, exception)), result)
 
 
-def design_exception(result: SiteAssessment) -> DesignException:
+def design_exception(result: SiteAssessment, *, prepared_by: str | None = None) -> DesignException:
     """The design-exception study: the policy value, the deficit, the consequences and each mitigation
-    rerun on a modified layout."""
-    return _design_exception(result)
+    rerun on a modified layout, dated, with who prepared it and the site file's SHA-256."""
+    return _design_exception(result, prepared_by=prepared_by)
 
 
 def _exception(result: SiteAssessment, given: bool | DesignException) -> DesignException | None:

@@ -97,6 +97,7 @@ def build_parser() -> argparse.ArgumentParser:
     check.add_argument(
         "--json", nargs="?", const="-", metavar="FILE", help="write JSON (SI values) to FILE, or to standard output"
     )
+    check.add_argument("--prepared-by", metavar="NAME", help="who prepared the design-exception study, for its record")
     check.add_argument(
         "--details", action="store_true", help="also show every assumption and the cautions in full on the terminal"
     )
@@ -284,11 +285,10 @@ def _check(args: argparse.Namespace, out: Console, err: Console) -> int:
     else:
         assessment = api.assess(site, monte_carlo=args.monte_carlo)
     study: bool | DesignException = False
-    files = args.html is not None or args.markdown is not None
-    if args.exception or (assessment.verdict == "short" and files):
-        study = api.design_exception(assessment)  # once, for every document that shows it
+    if args.exception or (assessment.verdict == "short" and asked):
+        study = api.design_exception(assessment, prepared_by=args.prepared_by)  # once, for every document
     render = {
-        "--json": lambda: api.to_json(assessment),
+        "--json": lambda: api.to_json(assessment, exception=study),
         "--markdown": lambda: api.to_markdown(assessment, units=args.units, exception=study),
         "--html": lambda: api.to_html(assessment, units=args.units, exception=study),
     }

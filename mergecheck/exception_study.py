@@ -21,7 +21,10 @@ figures to inform that judgment, not recommendations.
 from __future__ import annotations
 
 import dataclasses
+import datetime
+import hashlib
 from dataclasses import dataclass
+from pathlib import Path
 from typing import Literal
 
 from .assessment import SiteAssessment, assess
@@ -71,6 +74,13 @@ class DesignException:
     policy_deficit: float | None
     """Policy minimum less the length provided (positive when short of policy). [m]"""
     mitigations: tuple[Mitigation, ...]
+    prepared_on: str
+    """The date the study was run (ISO 8601)."""
+    prepared_by: str | None
+    """Who prepared it, as given (``check --prepared-by``)."""
+    input_sha256: str | None
+    """SHA-256 of the site file's bytes, so that a reviewer can tell the study from the file it came from; None
+    for a site not read from a file."""
     sign_off: str = SIGN_OFF
 
 
@@ -159,9 +169,11 @@ def metered(site: Site) -> Mitigation:
     )
 
 
-def design_exception(base: SiteAssessment) -> DesignException:
-    """The design-exception section for an assessed site."""
+def design_exception(base: SiteAssessment, *, prepared_by: str | None = None) -> DesignException:
+    """The design-exception study for an assessed site, dated, with who prepared it and the site file's digest."""
     site = base.site
+    source = Path(site.source)
+    digest = hashlib.sha256(source.read_bytes()).hexdigest() if source.is_file() else None
     policy_length = None if base.policy is None else base.policy.minimum_length
     deficit = None if policy_length is None else policy_length - site.lane_length
     return DesignException(
@@ -170,4 +182,7 @@ def design_exception(base: SiteAssessment) -> DesignException:
         provided_length=site.lane_length,
         policy_deficit=deficit,
         mitigations=(lane_for(site, base), flattened(site), faster_curve(site), metered(site)),
+        prepared_on=datetime.date.today().isoformat(),
+        prepared_by=prepared_by,
+        input_sha256=digest,
     )

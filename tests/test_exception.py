@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from pathlib import Path
+from typing import Any
 
 import pytest
 
@@ -39,3 +40,22 @@ def test_single_grade_profile_has_no_flattening_when_already_flat(repo: Path) ->
     base = assess(load_site(str(repo / "examples" / "harbour-street-constrained.yaml")))  # one 1.5 % grade
     flat = next(m for m in design_exception(base).mitigations if m.name == "Flatten the profile")
     assert flat.change == "none" and flat.assessment is None
+
+
+def test_the_study_is_in_every_format_with_its_record(cli: Any, repo: Path, tmp_path: Path) -> None:
+    """The JSON carries the design-exception study (it had none) when a vehicle falls short or --exception is
+    given, with the date, who prepared it and the site file's SHA-256 (hashlib, the reference); the terminal
+    shows it with --exception."""
+    import datetime
+    import hashlib
+
+    short = repo / "examples" / "harbour-street-constrained.yaml"
+    study = cli("check", short, "--json", "--prepared-by", "A. Designer").json()["design_exception"]
+    assert study["site_file_sha256"] == hashlib.sha256(short.read_bytes()).hexdigest()
+    assert study["prepared_by"] == "A. Designer" and study["prepared_on"] == datetime.date.today().isoformat()
+    assert study["short_of_policy_m"] > 0 and {m["change"] for m in study["mitigations"]} >= {"lane_length"}
+    fine = repo / "examples" / "willowmere-level.yaml"
+    assert cli("check", fine, "--json").json()["design_exception"] is None
+    assert cli("check", fine, "--json", "--exception").json()["design_exception"]["prepared_by"] is None
+    terminal = cli("check", fine, "--exception")
+    assert "Design exception" in terminal.stdout and "SHA-256 of the site file" in terminal.stdout

@@ -429,6 +429,10 @@ def _exception(a: SiteAssessment, exception: DesignException, system: UnitSystem
         (
             Items(
                 (
+                    ("Site file", Value(a.site.source)),
+                    ("SHA-256 of the site file", Value(exception.input_sha256, missing="not read from a file")),
+                    ("Prepared on", Value(exception.prepared_on)),
+                    ("Prepared by", Value(exception.prepared_by, missing="not given (check --prepared-by NAME)")),
                     ("Policy minimum acceleration length", Value(exception.policy_length, "length", missing="none")),
                     ("Length provided (as the table measures it)", Value(exception.provided_length, "length")),
                     ("Short of policy by", short),

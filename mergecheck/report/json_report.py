@@ -12,6 +12,7 @@ from ..batch import BatchResult, BatchSummary
 from ..cautions import CAUTIONS
 from ..command_results import AccelerationRun, GapFigures
 from ..critical_gap_estimation import CriticalGapEstimate
+from ..exception_study import DesignException
 from ..merge_area import MergeArea
 from ..merge_operations import MergeOperations
 from ..narrative import assumptions, summary_sentence
@@ -79,8 +80,9 @@ def dumps(document: Any) -> str:
     return orjson.dumps(document, option=_OPTIONS).decode("utf-8") + "\n"
 
 
-def site_json(assessment: SiteAssessment) -> dict[str, Any]:
-    """The ``check --json`` document (SI values, stable keys)."""
+def site_json(assessment: SiteAssessment, exception: DesignException | None = None) -> dict[str, Any]:
+    """The ``check --json`` document (SI values, stable keys); ``design_exception`` is null unless the study was
+    run (a site that falls short, or ``--exception``)."""
     site = assessment.site
     policy = assessment.policy
     return {
@@ -166,8 +168,48 @@ def site_json(assessment: SiteAssessment) -> dict[str, Any]:
         },
         "merge_area": merge_area_json(assessment.merge_area),
         "merge_area_not_applied": assessment.merge_area_not_applied or None,
+        "design_exception": None if exception is None else design_exception_json(exception),
         "assumptions": [{"name": a.name, "value": a.value, "source": a.source} for a in assumptions(assessment)],
         "cautions": list(CAUTIONS),
+    }
+
+
+def design_exception_json(study: DesignException) -> dict[str, Any]:
+    """The design-exception study: what it was run on and by whom, the policy deficit, the consequences at the
+    design hour and each mitigation's rerun (SI)."""
+    return {
+        "site_file": study.base.site.source,
+        "site_file_sha256": study.input_sha256,
+        "prepared_on": study.prepared_on,
+        "prepared_by": study.prepared_by,
+        "policy_length_m": _number(study.policy_length, 3),
+        "provided_length_m": _number(study.provided_length, 3),
+        "short_of_policy_m": _number(study.policy_deficit, 3),
+        "consequences": [
+            {
+                "vehicle": v.vehicle.id,
+                "speed_differential_at_taper_start_m_s": _number(v.speed_differential_at_lane_end),
+                "merge_probability_by_lane_end": _number(v.merge.by_lane_end),
+                "forced_merges_veh_h": _number(v.merge.forced_merges_per_h, 3),
+                "stops_veh_h": _number(v.merge.stops_per_h, 3),
+            }
+            for v in study.base.vehicles
+        ],
+        "mitigations": [
+            {
+                "name": m.name,
+                "change": m.change,
+                "before_si": _number(m.before),
+                "after_si": _number(m.after),
+                "applies": m.assessment is not None,
+                "performance_verdict": None if m.assessment is None else m.assessment.performance_verdict,
+                "governing_vehicle": None if m.assessment is None else m.assessment.governing.vehicle.id,
+                "length_needed_m": None if m.assessment is None else _number(m.assessment.governing.length_needed, 3),
+                "note": m.note,
+            }
+            for m in study.mitigations
+        ],
+        "sign_off": study.sign_off,
     }
 
 
