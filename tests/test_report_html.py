@@ -2,11 +2,15 @@
 
 from __future__ import annotations
 
+import re
+import shutil
+import subprocess
 from html.parser import HTMLParser
 from pathlib import Path
 from typing import Any
 
 import markdown_it
+import pytest
 import yaml
 
 from mergecheck.assessment import assess
@@ -142,3 +146,32 @@ def test_user_text_in_markdown_is_text_not_markup(cli: Any, repo: Path, tmp_path
     for element in ("<img", "<script", "<a ", "<strong>not", "<em>not", "<h1>not"):
         assert element not in rendered, element
     assert "&lt;img src=x onerror=alert(1)&gt;" in rendered and "**not bold**" in rendered
+
+
+CHROMIUM = shutil.which("chromium") or shutil.which("chromium-browser")
+
+
+@pytest.mark.skipif(CHROMIUM is None, reason="no Chromium on this machine (Debian package chromium)")
+def test_the_report_prints_with_a_running_header_and_page_numbers(cli: Any, repo: Path, tmp_path: Path) -> None:
+    """Chromium's print to PDF (a real browser): every page carries the site name and 'page x of y' (CSS Paged
+    Media margin boxes), and a site name that tries to leave the CSS string prints as written."""
+    pdftotext = shutil.which("pdftotext")
+    site = yaml.safe_load((repo / "examples" / "harbour-street-constrained.yaml").read_text())
+    site["name"] = 'Quay "Road" </style> entrance'
+    site["policy"] = str(repo / "examples" / "agency-policy-table.yaml")
+    source = tmp_path / "site.yaml"
+    source.write_text(yaml.safe_dump(site))
+    page, pdf = tmp_path / "r.html", tmp_path / "r.pdf"
+    assert cli("check", source, "--html", page).code == 1
+    subprocess.run(
+        [str(CHROMIUM), "--headless", "--no-sandbox", "--disable-gpu", "--no-first-run", "--disable-background-networking",
+         f"--user-data-dir={tmp_path / 'profile'}", f"--print-to-pdf={pdf}", "--no-pdf-header-footer", page.as_uri()],
+        capture_output=True, timeout=120, check=False,
+    )  # fmt: skip
+    data = pdf.read_bytes()
+    pages = len(re.findall(rb"/Type\s*/Page[^s]", data))
+    assert data.startswith(b"%PDF") and pages >= 3
+    if pdftotext:
+        text = subprocess.run([pdftotext, str(pdf), "-"], capture_output=True, text=True, check=True).stdout
+        assert f"page 1 of {pages}" in text and f"page {pages} of {pages}" in text
+        assert text.count('Quay "Road" </style> entrance') >= pages

@@ -10,6 +10,7 @@ one place where a report turns numbers into text. The words come from :mod:`merg
 
 from __future__ import annotations
 
+import datetime
 from dataclasses import dataclass
 from typing import Literal
 
@@ -126,6 +127,8 @@ class SiteDocument:
     summary: str
     sections: tuple[Section, ...]
     cautions: tuple[str, ...]
+    prepared_on: str
+    """The date the report was made (ISO 8601)."""
 
 
 def site_document(
@@ -168,6 +171,7 @@ def site_document(
         summary=summary_sentence(a, system),
         sections=tuple(sections),
         cautions=CAUTIONS,
+        prepared_on=datetime.date.today().isoformat(),
     )
 
 

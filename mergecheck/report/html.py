@@ -23,6 +23,15 @@ _ENVIRONMENT = jinja2.Environment(
 )
 
 
+def css_string(text: str) -> str:
+    """Text for a CSS string (the print header): every character other than a letter, digit or space as a CSS
+    escape, so that no quote, backslash or '</style>' in a site name can leave the string."""
+    return "".join(c if c.isalnum() or c == " " else f"\\{ord(c):x} " for c in text)
+
+
+_ENVIRONMENT.filters["css_string"] = css_string
+
+
 def site_html(document: SiteDocument, assessment: SiteAssessment) -> str:
     """The report page: the document laid out, with the figures drawn from the assessment it was built from."""
     system = document.system

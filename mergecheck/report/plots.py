@@ -83,7 +83,9 @@ def _landmarks(ax: Axes, assessment: SiteAssessment, system: UnitSystem, labels:
                 xycoords=("data", "axes fraction"),
                 rotation=90,
                 va="bottom" if at_bottom else "top",
-                ha="right",
+                ha="left" if station <= 0 else "right",  # the first mark's label inside the axes, off the ticks
+                xytext=(2 if station <= 0 else 0, 0),
+                textcoords="offset points",
                 fontsize=7,
                 color=LANDMARK,
             )
@@ -144,7 +146,18 @@ def layout_figure(assessment: SiteAssessment, system: UnitSystem) -> str:
                          textcoords="offset points", xytext=(0, 6), fontsize=7, ha="center")  # fmt: skip
     _landmarks(profile, assessment, system, labels=True)
     profile.set_xlim(0, c(end))
+    profile.text(0.99, 0.02, f"vertical exaggeration {_exaggeration(fig, profile):.0f} to 1", transform=profile.transAxes,
+                 ha="right", va="bottom", fontsize=7, color=LANDMARK)  # fmt: skip
     return _svg(fig)
+
+
+def _exaggeration(fig: Figure, ax: Axes) -> float:
+    """How much more a length on the elevation axis is stretched than one along the path (both in the same
+    unit): (x range / axes width) / (y range / axes height)."""
+    box = ax.get_position()
+    width, height = box.width * fig.get_figwidth(), box.height * fig.get_figheight()
+    (x0, x1), (y0, y1) = ax.get_xlim(), ax.get_ylim()
+    return float(((x1 - x0) / width) / ((y1 - y0) / height))
 
 
 def speed_figure(assessment: SiteAssessment, system: UnitSystem) -> str:
@@ -213,6 +226,7 @@ def length_figure(assessment: SiteAssessment, system: UnitSystem) -> str:
     for i, v in enumerate(assessment.vehicles):
         need = v.length_needed
         bar = cap if need is None else min(need, cap)
+        cut = need is None or need > cap
         ax.barh(
             i,
             c(bar),
@@ -221,23 +235,23 @@ def length_figure(assessment: SiteAssessment, system: UnitSystem) -> str:
             edgecolor=INK,
             linewidth=0.5,
         )
-        label = (
-            "never (cannot reach or too few gaps)" if need is None else f"{c(need):.0f} {unit_symbol('length', system)}"
-        )
+        if need is not None:
+            label = f"{c(need):.0f} {unit_symbol('length', system)}" + (" (bar cut)" if cut else "")
+        elif v.required_length is None:
+            label = "no length suffices: never reaches merge speed"
+        else:
+            label = f"no length suffices: under {v.merge.reliability:.0%} find a gap on any length searched"
+        if cut:  # a break mark where the bar is cut: a white gap between two slanted strokes
+            gap = c(cap) * 0.02
+            ax.barh(i, gap, left=c(bar) - 3 * gap, color="white", edgecolor="none", height=0.9, zorder=3)
+            for edge in (c(bar) - 3 * gap, c(bar) - 2 * gap):
+                ax.plot([edge - gap / 2, edge + gap / 2], [i + 0.45, i - 0.45], color=INK, linewidth=0.8, zorder=4)
         ax.annotate(label, (c(bar), i), textcoords="offset points", xytext=(3, 0), va="center", fontsize=7)
-    ax.axvline(c(site.available_length), color=INK, linewidth=1.4)
-    ax.annotate(
-        "available", (c(site.available_length), len(names) - 0.5), textcoords="offset points", xytext=(3, 0), fontsize=7
-    )
+    ax.axvline(c(site.available_length), color=INK, linewidth=1.4, label="length available")
     if assessment.policy is not None and assessment.policy.minimum_length is not None:
-        ax.axvline(c(assessment.policy.minimum_length), color=INK, linewidth=1.0, linestyle=(0, (4, 2)))
-        ax.annotate(
-            "policy minimum",
-            (c(assessment.policy.minimum_length), -0.5),
-            textcoords="offset points",
-            xytext=(3, 0),
-            fontsize=7,
-        )
+        ax.axvline(c(assessment.policy.minimum_length), color=INK, linewidth=1.0, linestyle=(0, (4, 2)),
+                   label="policy minimum (as the table measures it)")  # fmt: skip
+    ax.legend(loc="lower left", bbox_to_anchor=(0.0, 1.0), ncol=2, frameon=False, fontsize=7)  # above the bars
     ax.set_yticks(range(len(names)), names)
     ax.invert_yaxis()
     ax.set_xlabel(f"Length from the convergence point ({unit_symbol('length', system)})")
