@@ -206,6 +206,9 @@ def summary_sentence(assessment: SiteAssessment, system: Literal["si", "us"]) ->
     g = assessment.governing
     site = assessment.site
     lane = show(site.available_length, "length", system)
+    provided = f"{lane} provided"
+    if site.available_length != site.lane_length:  # the taper credit: say what the length is made of
+        provided += f" (the {show(site.lane_length, 'length', system)} lane and {site.taper_credit:.0%} of the taper)"
     if assessment.performance_verdict == "meets":
         return (
             f"All design vehicles reach merge speed and find a gap within the {lane} provided; {g.vehicle.id} "
@@ -213,7 +216,7 @@ def summary_sentence(assessment: SiteAssessment, system: Literal["si", "us"]) ->
         )
     if g.verdict == "cannot-reach":
         return (
-            f"{g.vehicle.id} never reaches its merge speed of {show(g.merge_speed, 'speed', system)}: its crawl speed is "
+            f"Design vehicle {g.vehicle.id} never reaches its merge speed of {show(g.merge_speed, 'speed', system)}: its crawl speed is "
             f"{show(g.crawl_speed, 'speed', system)}, and it leaves the {lane} lane at "
             f"{show(g.speed_at_taper_start, 'speed', system)}, {show(g.speed_differential_at_lane_end, 'speed', system)} "
             f"below the stream."
@@ -222,18 +225,18 @@ def summary_sentence(assessment: SiteAssessment, system: Literal["si", "us"]) ->
     lane_end = site.convergence + site.available_length
     if g.length_needed is None and (g.merge.eligible_station is None or g.merge.eligible_station > lane_end):
         return (
-            f"{g.vehicle.id} is still below the minimum merge speed of {show(site.gaps.minimum_merge_speed, 'speed', system)} "
+            f"Design vehicle {g.vehicle.id} is still below the minimum merge speed of {show(site.gaps.minimum_merge_speed, 'speed', system)} "
             f"at the end of the {lane} lane (it leaves the lane at {show(g.speed_at_taper_start, 'speed', system)} and needs "
             f"{show(g.required_length, 'length', system)} to reach its merge speed), so it can only force its way in."
         )
     if g.length_needed is None:
         return (
-            f"{g.vehicle.id} reaches merge speed but rarely finds a gap: {merged}, short of the "
+            f"Design vehicle {g.vehicle.id} reaches merge speed but rarely finds a gap: {merged}, short of the "
             f"{g.merge.reliability:.0%} target even on a much longer lane."
         )
     return (
         f"The lane is {show(g.deficit, 'length', system)} short for {g.vehicle.id}: it needs "
-        f"{show(g.length_needed, 'length', system)} against {lane} provided "
+        f"{show(g.length_needed, 'length', system)} against {provided} "
         f"({show(g.required_length, 'length', system)} to reach merge speed, "
         f"{show(g.merge.length_for_reliability, 'length', system)} for a {g.merge.reliability:.0%} chance of a gap); "
         f"{merged}."

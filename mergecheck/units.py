@@ -257,6 +257,8 @@ DISPLAY: dict[UnitSystem, dict[str, DisplayUnit]] = {
         "mass": DisplayUnit("kg", 1.0, 0),
         "power": DisplayUnit("kW", 1e-3, 0),
         "flow": DisplayUnit("veh/h", 3600.0, 0),
+        "density": DisplayUnit("veh/km", 1000.0, 1),
+        "distance": DisplayUnit("km", 1e-3, 2),
     },
     "us": {
         "speed": DisplayUnit("mph", _factor("mph", "m/s"), 1),
@@ -268,6 +270,8 @@ DISPLAY: dict[UnitSystem, dict[str, DisplayUnit]] = {
         "mass": DisplayUnit("lb", _factor("lb", "kg"), 0),
         "power": DisplayUnit("hp", _factor("hp", "W"), 0),
         "flow": DisplayUnit("veh/h", 3600.0, 0),
+        "density": DisplayUnit("veh/mi", _MILE, 1),
+        "distance": DisplayUnit("mi", 1 / _MILE, 2),
     },
 }
 

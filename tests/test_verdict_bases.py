@@ -79,6 +79,6 @@ def test_a_truck_slowing_on_the_ramp_upgrade_is_reported(make_site: Any) -> None
     result = assess(make_site(ramp__controlling_speed="70 km/h", ramp__vehicles={"passenger-car": 0.8, "semitrailer-design": 0.2},
                               geometry__profile=[{"from": "0 m", "grade": "5 %"}]))  # fmt: skip
     notes = slowing_notes(result, "si")
-    assert len(notes) == 1 and notes[0].startswith("semitrailer-design slows on the grade from")
+    assert len(notes) == 1 and notes[0].startswith("Design vehicle semitrailer-design slows on the grade from")
     truck = next(v for v in result.vehicles if v.vehicle.id == "semitrailer-design")
     assert truck.crawl_speed is not None and 40 / 3.6 < truck.crawl_speed < 48 / 3.6

@@ -17,6 +17,7 @@ from typing import Literal
 from ..assessment import SiteAssessment
 from ..cautions import CAUTIONS
 from ..exception_study import DesignException
+from ..merge_area import MergeArea
 from ..merge_operations import MergeOperations
 from ..narrative import assumptions, summary_sentence
 from ..units import DISPLAY, UnitSystem, show
@@ -351,21 +352,19 @@ def _merging(a: SiteAssessment, system: UnitSystem) -> Section:
     )
 
 
-def _merge_area(operations: MergeOperations, system: UnitSystem) -> Section:
-    area = operations.area
+def merge_area_blocks(area: MergeArea) -> tuple[Items, Table]:
+    """The capacity manual's merge-segment figures (HCM chapter 14), in our own order and words: the level of
+    service and density first, then the flows that set them, then demand against each capacity."""
     rows: list[tuple[str, Value]] = [
         ("Level of service", Value(area.los, flag="exceeded" if area.los == "F" else "")),
         ("Density in the influence area", Value(f"{area.density_pc_mi_ln:.1f} pc/mi/ln ({area.density_pc_km_ln:.1f} pc/km/ln)")),
         ("Demand, mainline and ramp", Value(f"{area.mainline_pc_h:.0f} and {area.ramp_pc_h:.0f} pc/h")),
         ("Share of the mainline in lanes 1 and 2 (P_FM)", Value(f"{area.p_fm:.3f}")),
         ("Flow in lanes 1 and 2 (v12)", Value(f"{area.v12_pc_h:.0f} pc/h" + (f", raised: {area.lane_distribution}" if area.lane_distribution else ""))),
+        ("Flow entering the influence area (vR12)", Value(f"{area.vr12_pc_h:.0f} pc/h")),
     ]  # fmt: skip
     if area.lane_five_pc_h:
         rows.append(("Lane 5, taken off first", Value(f"{area.lane_five_pc_h:.0f} pc/h")))
-    rows += [
-        ("Acceleration length as the manual measures it (lane and taper)", Value(operations.acceleration_length, "length")),
-        ("Capacity lost to slow trucks on the ramp", Value(f"{operations.capacity_lost_pc_h:.0f} pc/h")),
-    ]  # fmt: skip
     checks = tuple(
         (Value(c.name), Value(c.demand_pc_h, "count"), Value(c.capacity_pc_h, "count"),
          Value("no, exceeded" if c.exceeded else "yes", flag="exceeded" if c.exceeded else ""))
@@ -373,8 +372,16 @@ def _merge_area(operations: MergeOperations, system: UnitSystem) -> Section:
     )  # fmt: skip
     columns: tuple[tuple[str, Kind], ...] = (
         ("Where", "text"), ("Demand (pc/h)", "count"), ("Capacity (pc/h)", "count"), ("Within it", "text"))  # fmt: skip
-    capacity = Table(columns, checks, caption="Demand against capacity")
-    blocks: list[Block] = [Items(tuple(rows)), capacity]
+    return Items(tuple(rows)), Table(columns, checks, caption="Demand against capacity")
+
+
+def _merge_area(operations: MergeOperations, system: UnitSystem) -> Section:
+    figures, capacity = merge_area_blocks(operations.area)
+    more = (
+        ("Acceleration length as the manual measures it (lane and taper)", Value(operations.acceleration_length, "length")),
+        ("Capacity lost to slow trucks on the ramp", Value(f"{operations.capacity_lost_pc_h:.0f} pc/h")),
+    )  # fmt: skip
+    blocks: list[Block] = [Items(figures.rows + more), capacity]
     if operations.queue is not None:
         queue = operations.queue
         blocks.append(
@@ -382,7 +389,7 @@ def _merge_area(operations: MergeOperations, system: UnitSystem) -> Section:
                 "Breakdown: demand exceeds the downstream capacity. The back of the queue moves upstream at"
                 f" {show(-queue.shock_speed, 'speed', system)}, the queue gains {show(queue.growth, 'flow', system)}"
                 " at the peak 15-minute rate, stretches"
-                f" {show(operations.queue_length_after_hour or 0.0, 'length', system)} after one hour, and clears"
+                f" {show(operations.queue_length_after_hour or 0.0, 'distance', system)} after one hour, and clears"
                 f" {clearing(operations)}.",
                 "warning",
             )

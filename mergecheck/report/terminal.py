@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+from collections.abc import Sequence
+
 import numpy as np
 from rich.console import Group, RenderableType
 from rich.table import Table
@@ -17,7 +19,7 @@ from ..shockwave import QueueGrowth
 from ..sweep import Sweep
 from ..units import UnitSystem, convert, show, unit_symbol
 from ..vehicle_figures import VehicleFigures
-from .document import Items, Paragraph, SiteDocument, unit_of
+from .document import Block, Items, Paragraph, SiteDocument, merge_area_blocks, unit_of
 from .document import Table as DocumentTable
 from .table_rows import batch_row
 from .wording import clearing
@@ -154,20 +156,26 @@ def site_view(document: SiteDocument, *, details: bool = False) -> RenderableTyp
     for section in document.sections:
         if section.key == "assumptions" and not details:
             continue
-        parts += [Text(""), Text(section.title, style="bold underline")]
-        for block in section.blocks:
-            if isinstance(block, Items):
-                grid = _grid()
-                for label, value in block.rows:
-                    grid.add_row(label, _styled(value.text(system), value.flag))
-                parts.append(grid)
-            elif isinstance(block, DocumentTable):
-                parts.append(_table(block, system))
-            elif isinstance(block, Paragraph):
-                parts.append(Text(block.text, style=_TONE_STYLE[block.tone]))
+        parts += [Text(""), Text(section.title, style="bold underline"), *_blocks(section.blocks, system)]
     where = "--details, or the --markdown, --html and --json reports, which carry them with every assumption"
     parts.append(cautions_block(document.cautions, full=details, where=where))
     return Group(*parts)
+
+
+def _blocks(blocks: Sequence[Block], system: UnitSystem) -> list[RenderableType]:
+    """Document blocks as terminal renderables (figures are drawn in the HTML report only)."""
+    shown: list[RenderableType] = []
+    for block in blocks:
+        if isinstance(block, Items):
+            grid = _grid()
+            for label, value in block.rows:
+                grid.add_row(label, _styled(value.text(system), value.flag))
+            shown.append(grid)
+        elif isinstance(block, DocumentTable):
+            shown.append(_table(block, system))
+        elif isinstance(block, Paragraph):
+            shown.append(Text(block.text, style=_TONE_STYLE[block.tone]))
+    return shown
 
 
 def _table(table: DocumentTable, system: UnitSystem) -> Table:
@@ -247,45 +255,29 @@ def merge_area_view(operations: MergeOperations, system: UnitSystem) -> Renderab
 
 def queue_view(queue: QueueGrowth, system: UnitSystem) -> RenderableType:
     table = _grid()
-    table.add_row(
-        "Arriving",
-        f"{queue.arriving.flow * 3600:.0f} veh/h at {queue.arriving.density * 1000:.1f} veh/km ({show(queue.arriving.speed, 'speed', system)})",
-    )
-    table.add_row(
-        "Queued",
-        f"{queue.queued.flow * 3600:.0f} veh/h at {queue.queued.density * 1000:.1f} veh/km ({show(queue.queued.speed, 'speed', system)})",
-    )
+    for label, state in (("Arriving", queue.arriving), ("Queued", queue.queued)):
+        table.add_row(
+            label,
+            f"{show(state.flow, 'flow', system)} at {show(state.density, 'density', system)}"
+            f" ({show(state.speed, 'speed', system)})",
+        )
     direction = "upstream" if queue.shock_speed < 0 else "downstream"
     table.add_row(
         "Boundary",
-        f"moves {direction} at {show(abs(queue.shock_speed), 'speed', system)} ({queue.shock_speed:+.3f} m/s)",
+        f"moves {direction} at {show(abs(queue.shock_speed), 'speed', system)}",
     )
-    table.add_row("Queue gains", f"{queue.growth * 3600:.0f} veh/h")
+    table.add_row("Queue gains", show(queue.growth, "flow", system))
     table.add_row(
         f"After {queue.duration / 60:.0f} min",
-        f"back of queue {show(queue.length_after, 'length', system)} upstream; {queue.joined_after:.0f} vehicles"
+        f"back of queue {show(queue.length_after, 'distance', system)} upstream; {queue.joined_after:.0f} vehicles"
         f" joined the queue, {queue.excess_after:.0f} more than the same road held before",
     )
     return with_cautions(table)
 
 
 def area_view(area: MergeArea) -> RenderableType:
-    table = _grid()
-    table.add_row(
-        "Level of service",
-        f"{area.los} (influence-area density {area.density_pc_mi_ln:.1f} pc/mi/ln, {area.density_pc_km_ln:.1f} pc/km/ln)",
-    )
-    table.add_row("P_FM", f"{area.p_fm:.4f}")
-    table.add_row("v12", f"{area.v12_pc_h:.0f} pc/h")
-    if area.lane_distribution:
-        table.add_row("v12 raised by", area.lane_distribution)
-    if area.lane_five_pc_h:
-        table.add_row("Lane 5 (taken off first)", f"{area.lane_five_pc_h:.0f} pc/h")
-    table.add_row("Entering the influence area", f"{area.vr12_pc_h:.0f} pc/h")
-    for check in area.checks:
-        state = Text("exceeded", style="bold red") if check.exceeded else Text("ok", style="green")
-        table.add_row(check.name, Text.assemble(f"{check.demand_pc_h:.0f} / {check.capacity_pc_h:.0f} pc/h ", state))
-    return with_cautions(table)
+    """The ``merge-area`` command: the same figures and words as a site report's merge-area section."""
+    return with_cautions(Group(*_blocks(merge_area_blocks(area), "si")))
 
 
 BATCH_ROWS_SHOWN = 25

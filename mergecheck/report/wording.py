@@ -62,7 +62,7 @@ def slowing_notes(assessment: SiteAssessment, system: UnitSystem) -> list[str]:
                 else f"; its crawl speed on the final grade is {show(v.crawl_speed, 'speed', system)}"
             )
             notes.append(
-                f"{v.vehicle.id} slows on the grade from {show(v.initial_speed, 'speed', system)} to"
+                f"Design vehicle {v.vehicle.id} slows on the grade from {show(v.initial_speed, 'speed', system)} to"
                 f" {show(float(speeds[low]), 'speed', system)} at station {show(float(stations[low]), 'length', system)}"
                 f" (a loss of {show(v.initial_speed - float(speeds[low]), 'speed', system)}){crawl}."
             )
