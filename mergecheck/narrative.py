@@ -236,10 +236,9 @@ def summary_sentence(assessment: SiteAssessment, system: Literal["si", "us"]) ->
         )
     return (
         f"The lane is {show(g.deficit, 'length', system)} short for {g.vehicle.id}: it needs "
-        f"{show(g.length_needed, 'length', system)} against {provided} "
-        f"({show(g.required_length, 'length', system)} to reach merge speed, "
-        f"{show(g.merge.length_for_reliability, 'length', system)} for a {g.merge.reliability:.0%} chance of a gap); "
-        f"{merged}."
+        f"{show(g.length_needed, 'length', system)} ({show(g.required_length, 'length', system)} to reach merge speed, "
+        f"{show(g.merge.length_for_reliability, 'length', system)} for a {g.merge.reliability:.0%} chance of a gap) "
+        f"against {provided}; {merged}."
     )
 
 
