@@ -272,12 +272,12 @@ def merge_area(
         )
     down_lanes = lanes_downstream or lanes
     downstream = CapacityCheck(
-        name="downstream freeway section",
+        name="through lanes past the merge",
         demand_pc_h=mainline_pc_h + ramp_pc_h,
         capacity_pc_h=down_lanes * freeway_capacity_per_lane(free_flow_speed_mph),
     )
     ramp = CapacityCheck(
-        name="ramp roadway", demand_pc_h=ramp_pc_h, capacity_pc_h=ramp_capacity(ramp_free_flow_speed_mph, ramp_lanes)
+        name="the ramp itself", demand_pc_h=ramp_pc_h, capacity_pc_h=ramp_capacity(ramp_free_flow_speed_mph, ramp_lanes)
     )
     return MergeArea(
         lanes=lanes,
@@ -293,7 +293,9 @@ def merge_area(
         los=level_of_service(density, breaks_down(downstream, ramp)),
         downstream=downstream,
         influence_area=CapacityCheck(
-            name="flow entering the influence area", demand_pc_h=vr12, capacity_pc_h=MAX_DESIRABLE_INFLUENCE_FLOW
+            name="into the merge zone (lanes 1 and 2 with the ramp)",
+            demand_pc_h=vr12,
+            capacity_pc_h=MAX_DESIRABLE_INFLUENCE_FLOW,
         ),
         ramp_roadway=ramp,
     )

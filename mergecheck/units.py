@@ -99,13 +99,13 @@ def parse_quantity(text: object, kind: str, *, source: str, field: str) -> float
     if isinstance(text, bool) or text is None:
         raise _bad(source, field, f"expected {example}, got {text!r}")
     if isinstance(text, (int, float)):
-        raise _bad(source, field, f"a unit is required: expected {example}, got the bare number {text!r}")
+        raise _bad(source, field, f"a unit is required: {_written_with_units(text, kind)}")
     if not isinstance(text, str):
         raise _bad(source, field, f"expected {example}, got {text!r}")
     plain = _NUMBER_AND_UNIT.fullmatch(text)
     if plain is None:  # no arithmetic, no second decimal point, no stray characters: a typo is never a value
         if _BARE_NUMBER.fullmatch(text):
-            raise _bad(source, field, f"a unit is required: expected {example}, got {text!r}")
+            raise _bad(source, field, f"a unit is required: {_written_with_units(text.strip(), kind)}")
         if _NOT_FINITE.match(text):
             raise _bad(source, field, f"{text!r} is not a finite number")
         raise _bad(source, field, f"cannot read {text!r} as a quantity: expected a plain number and a unit, {example}")
@@ -116,6 +116,23 @@ def parse_quantity(text: object, kind: str, *, source: str, field: str) -> float
     if not math.isfinite(value):
         raise _bad(source, field, f"{text!r} is not a finite number")
     return value
+
+
+_LIKELY_UNITS: dict[str, tuple[str, str]] = {
+    "speed": ("km/h", "mph"), "length": ("m", "ft"), "grade": ("%", "%"), "time": ("s", "s"),
+    "mass": ("kg", "lb"), "power": ("kW", "hp"), "weight_to_power": ("kg/kW", "lb/hp"),
+    "acceleration": ("m/s^2", "ft/s^2"), "flow": ("veh/h", "pc/h"), "area": ("m^2", "m^2"),
+    "density": ("veh/km", "veh/mi"), "frequency": ("1/s", "1/s"),
+}  # fmt: skip
+"""The units a number of each kind is most likely written in (metric, US customary), for a suggestion."""
+
+
+def _written_with_units(number: object, kind: str) -> str:
+    """A suggestion for a number given without its unit, e.g. "write '300 m' or '300 ft'"."""
+    first, second = _LIKELY_UNITS[kind]
+    if first == second:
+        return f"write '{number} {first}'"
+    return f"write '{number} {first}' or '{number} {second}', as the value was meant"
 
 
 _RULES = {

@@ -49,9 +49,9 @@ def test_guidebook_case_three_lanes(cli: Any) -> None:
     assert doc["density_pc_mi_ln"] == pytest.approx(42.5, abs=0.1)
     assert doc["los"] == "F"
     checks = {c["check"]: c for c in doc["capacity_checks"]}
-    assert checks["downstream freeway section"]["demand_pc_h"] == pytest.approx(7444)
-    assert checks["downstream freeway section"]["capacity_pc_h"] == pytest.approx(6750)
-    assert checks["flow entering the influence area"]["exceeded"] is True
+    assert checks["through lanes past the merge"]["demand_pc_h"] == pytest.approx(7444)
+    assert checks["through lanes past the merge"]["capacity_pc_h"] == pytest.approx(6750)
+    assert checks["into the merge zone (lanes 1 and 2 with the ramp)"]["exceeded"] is True
 
 
 def test_issue_example_command(cli: Any) -> None:

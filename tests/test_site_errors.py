@@ -346,7 +346,7 @@ def test_a_misspelt_key_is_named_with_the_field_it_likely_means(cli: Any, repo: 
 @pytest.mark.parametrize(
     ("old", "new", "message"),
     [
-        ("lane_length: 300 m", "lane_length: 300", "geometry.lane_length: a unit is required: expected a length"),
+        ("lane_length: 300 m", "lane_length: 300", "geometry.lane_length: a unit is required: write '300 m' or '300 ft'"),
         ("adjacent_lane_flow: 1400 veh/h", "adjacent_lane_flow: 1400", "mainline.adjacent_lane_flow: a unit is required"),
         ("operating_speed: 100 km/h", "operating_speed: 100 m", "mainline.operating_speed: wrong kind of quantity"),
         ("operating_speed: 100 km/h", "operating_speed: 1000 km/h", "mainline.operating_speed: must lie between 40 and 160 km/h"),
