@@ -23,7 +23,8 @@ from .exception_study import DesignException
 from .fields import Reads, read_option
 from .headways import HEADWAY_MODELS, headway_model, mean_wait
 from .inputs import ProfileFile, build_profile, check_grade, control_character, printable, read_yaml, validated
-from .limits import CRITICAL_GAP, ELEVATION, FREE_FLOW_SPEED, MIN_HEADWAY, PROBE_FLOW, VEHICLE_SPEED
+from .landxml import is_landxml, read_profile
+from .limits import CRITICAL_GAP, ELEVATION, FREE_FLOW_SPEED, MIN_HEADWAY, PROBE_FLOW, STATION, VEHICLE_SPEED
 from .merge_area import COVERAGE, LANES_COVERED, OutsideMethod, merge_area, passenger_car_flow
 from .merge_operations import TRUCK_EQUIVALENT
 from .output_files import Output, check_outputs, write_all
@@ -53,7 +54,7 @@ class _Parser(argparse.ArgumentParser):
 _QUANTITY_OPTIONS = frozenset({
     "initial", "target", "grade", "elevation", "flow", "critical_gap", "min_headway", "mainline_flow", "ramp_flow",
     "accel_length", "ffs", "ramp_ffs", "arrive", "arrive_density", "arrive_speed", "discharge", "discharge_density",
-    "discharge_speed", "duration", "vary",
+    "discharge_speed", "duration", "vary", "start_station",
 })  # fmt: skip
 """Options that take a quantity (a number and its unit), which may come as two words, unquoted."""
 
@@ -85,7 +86,10 @@ def build_parser() -> argparse.ArgumentParser:
     accel.add_argument("--to", dest="target", required=True, help="target speed, e.g. '53 mph'")
     where = accel.add_mutually_exclusive_group(required=True)
     where.add_argument("--grade", help="one constant grade, e.g. '4 %%'")
-    where.add_argument("--profile", help="YAML file with a list of grades by station (see README)")
+    where.add_argument("--profile", help="YAML file with a list of grades by station (see README), or a LandXML file")
+    accel.add_argument("--alignment", help="with a LandXML --profile: the alignment's name")
+    accel.add_argument("--profile-name", help="with a LandXML --profile: the profile's name")
+    accel.add_argument("--start-station", help="with a LandXML --profile: the station to start from, e.g. '1250 m'")
     accel.add_argument("--elevation", help="elevation above sea level at the start, e.g. '1500 m' (default 0 m)")
     accel.add_argument("--units", choices=["si", "us"], default="si", help="unit system for display")
     accel.add_argument("--json", action="store_true", help="write JSON (SI values) to standard output")
@@ -256,7 +260,7 @@ def _accel(args: argparse.Namespace, out: Console, err: Console) -> int:
     if args.grade is not None:
         profile = build_profile_from_grade(args.grade)
     else:
-        profile, file_elevation = load_profile_file(args.profile)
+        profile, file_elevation = load_profile_file(args.profile, args)
         if args.elevation is None:
             elevation = file_elevation
     if args.elevation is None:
@@ -489,7 +493,22 @@ def build_profile_from_grade(text: str) -> VerticalProfile:
     return VerticalProfile.constant(grade)
 
 
-def load_profile_file(path: str) -> tuple[VerticalProfile, float]:
+def load_profile_file(path: str, args: argparse.Namespace) -> tuple[VerticalProfile, float]:
+    """A profile file: YAML grades by station, or a LandXML profile (--alignment, --profile-name, --start-station)."""
+    landxml = (args.alignment, args.profile_name, args.start_station)
+    if is_landxml(path):
+        for option, given in zip(("--alignment", "--profile-name", "--start-station"), landxml, strict=True):
+            if given is None:
+                raise InputError(
+                    "command line", option, "a LandXML --profile needs --alignment, --profile-name and --start-station"
+                )
+        start = read_option(args.start_station, Reads("length", STATION, "1250 m"), "--start-station")
+        read = read_profile(path, args.alignment, args.profile_name, start)
+        return read.profile, read.elevation
+    if any(given is not None for given in landxml):
+        raise InputError(
+            "command line", "--alignment", "--alignment, --profile-name and --start-station go with a LandXML --profile"
+        )
     data = validated(read_yaml(path), ProfileFile, path, "a profile file (with a 'profile' list)")
     elevation = 0.0
     if data.elevation is not None:

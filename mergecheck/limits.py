@@ -94,6 +94,8 @@ YIELD_BRAKING = Limit("acceleration", 0.1, 8.0)
 LANE_CHANGE_TIME = Limit("time", 0.0, 15.0)
 """The active merge model's parameters (:class:`mergecheck.merge_behaviour.MergeBehaviour`), each within a range
 a driver could show."""
+STATION = Limit("length", -1e7, 1e7)
+"""A station on an alignment (design models start anywhere, negative included)."""
 CARRIAGEWAY_FLOW = Limit("flow", 0.0, 9 * 3000 / 3600)
 """Flow of a whole carriageway (also at most 3,000 veh/h a lane and at least the adjacent lane's, checked where
 the lanes are known)."""

@@ -168,13 +168,19 @@ class ProfileStack:
         segments: list[tuple[float, float, float, float]] = []  # (x_j, g_j, s_j, z_j)
         for profile in profiles:
             x, g, s, z = 0.0, profile.initial_grade, 0.0, 0.0  # the segment before the first knot
-            segments.append((x, g, s, z))
+            row = [(x, g, s, z)]
             for station, after, rate in _events(profile):
                 z, g = z + g * (station - x) + s * (station - x) ** 2 / 2, g + s * (station - x)
                 x, s = station, rate
                 g = g if after is None else after
                 knots.append(x)
-                segments.append((x, g, s, z))
+                row.append((x, g, s, z))
+            # elevations relative to station 0 even where knots lie before it (a profile read from a design
+            # model begins before the ramp path does): subtract the elevation the tables give at 0
+            at_zero = next(j for j in range(len(row) - 1, -1, -1) if j == 0 or row[j][0] <= 0.0)
+            x0, g0, s0, z0 = row[at_zero]
+            offset = z0 + g0 * (0.0 - x0) + s0 * (0.0 - x0) ** 2 / 2 if at_zero else 0.0
+            segments += [(xj, gj, sj, zj - offset) for xj, gj, sj, zj in row]
             first.append(len(knots))
         reference, grade, slope, height = np.array(segments, dtype=float).reshape(-1, 4).T
         knot = np.asarray(knots, dtype=float)

@@ -23,6 +23,7 @@ from .critical_gaps import CriticalGap, default_critical_gaps
 from .errors import InputError
 from .fields import Reads
 from .inputs import GradePoint, build_profile, read_yaml, validated
+from .landxml import read_profile as read_landxml
 from .limits import (
     APPROACH_WINDOW,
     CAPACITY_DENSITY,
@@ -44,6 +45,7 @@ from .limits import (
     PRESSURE_DISTANCE,
     SEARCH_SPEED,
     SPEED_DIFFERENTIAL,
+    STATION,
     VEHICLE_SPEED,
     YIELD_BRAKING,
 )
@@ -121,6 +123,17 @@ class RampInput(_Strict):
     )
 
 
+class LandXMLProfileInput(_Strict):
+    """A vertical profile read from a LandXML file (the open exchange format of civil design models)."""
+
+    landxml: str = Field(description="LandXML file (1.0 to 1.2), relative to this site file.")
+    alignment: str = Field(description="Name of the alignment (Alignment name=...).")
+    profile: str = Field(description="Name of the profile on it (ProfAlign or Profile name=...).")
+    start_station: Annotated[float, Reads("length", STATION, "1250 m")] = Field(
+        description="Station on the alignment of the end of the controlling curve (the ramp path's station 0)."
+    )
+
+
 class GeometryInput(_Strict):
     """Lengths along the vehicle path and the vertical profile."""
 
@@ -139,8 +152,11 @@ class GeometryInput(_Strict):
     elevation: Elevation | None = Field(
         default=None, description="Elevation above sea level at station 0, e.g. '450 m'."
     )
-    profile: list[GradePoint] = Field(
-        min_length=1, description="Grades by station from the end of the controlling curve (first entry at 0)."
+    profile: list[GradePoint] | LandXMLProfileInput = Field(
+        description=(
+            "Grades by station from the end of the controlling curve (a list, first entry at 0), or a profile read"
+            " from a LandXML file ({landxml: FILE, alignment: NAME, profile: NAME, start_station: 1250 m})."
+        )
     )
 
 
@@ -594,12 +610,24 @@ def site_from_input(data: SiteInput, source: str) -> Site:
             )
             raise InputError(source, f"geometry.{name}", rule)
         lengths[name] = value
-    elevation = 0.0 if g.elevation is None else g.elevation
-    profile = build_profile(g.profile, source, "geometry.profile")
     path_end = lengths["curve_end_to_convergence"] + lengths["lane_length"] + lengths["taper_length"]
-    for i, change in enumerate(profile.changes, start=1):
-        if change.station > path_end:
-            raise InputError(source, f"geometry.profile.{i}.from", "station lies beyond the end of the taper")
+    if isinstance(g.profile, LandXMLProfileInput):
+        given = g.profile
+        read = read_landxml(str(base_dir / given.landxml), given.alignment, given.profile, given.start_station)
+        if read.end < path_end:
+            rule = (f"the profile ends {read.end:.1f} m past the start station, before the end of the taper"
+                    f" ({path_end:.1f} m): it must cover the whole ramp path")  # fmt: skip
+            raise InputError(source, "geometry.profile.landxml", rule)
+        profile = read.profile
+        elevation = read.elevation if g.elevation is None else g.elevation
+    else:
+        if not g.profile:
+            raise InputError(source, "geometry.profile", "give at least one grade")
+        profile = build_profile(g.profile, source, "geometry.profile")
+        for i, change in enumerate(profile.changes, start=1):
+            if change.station > path_end:
+                raise InputError(source, f"geometry.profile.{i}.from", "station lies beyond the end of the taper")
+        elevation = 0.0 if g.elevation is None else g.elevation
 
     return Site(
         name=data.name,
