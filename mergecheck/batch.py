@@ -52,6 +52,7 @@ from .errors import InputError
 from .inputs import csv_rows, printable, read_text, read_yaml, validated
 from .policy import load_policy
 from .site import Site, SiteInput, site_from_input
+from .spreadsheet import sheet_rows
 
 UNIT_SUFFIXES = {"kmh": "km/h", "mph": "mph", "m": "m", "ft": "ft", "veh_h": "veh/h", "pct": "%", "s": "s"}
 PARALLEL_FROM = 200
@@ -132,6 +133,8 @@ def read_entries(path: str) -> list[SiteEntry]:
         return [SiteEntry(printable(str(f)), partial(read_yaml, str(f))) for f in files]
     if source.suffix.lower() == ".csv":
         return list(_csv_entries(path))
+    if source.suffix.lower() == ".xlsx":
+        return [SiteEntry(label, partial(csv_row_to_site, row, label)) for label, row in sheet_rows(path)]
     raw = read_yaml(path)
     sites = raw.get("sites") if isinstance(raw, dict) else raw
     if not isinstance(sites, list) or not sites:

@@ -128,6 +128,7 @@ def build_parser() -> argparse.ArgumentParser:
     batch.add_argument("--units", choices=["si", "us"], default="si", help="unit system for display")
     batch.add_argument("--json", metavar="FILE", help="write every site's full check (SI) to FILE")
     batch.add_argument("--csv", metavar="FILE", help="write one row per site to FILE")
+    batch.add_argument("--xlsx", metavar="FILE", help="write one row per site to an .xlsx workbook")
     batch.add_argument("--markdown", metavar="FILE", help="write the corridor report to FILE")
     batch.add_argument("--workers", type=int, help="worker processes (default: all cores)")
 
@@ -434,7 +435,7 @@ def _batch(args: argparse.Namespace, out: Console, err: Console) -> int:
     if args.workers is not None and not 1 <= args.workers <= 64:
         raise InputError("command line", "--workers", "must lie between 1 and 64")
     asked = [Output(option, path) for option, path in (("--json", args.json), ("--csv", args.csv),
-                                                        ("--markdown", args.markdown)) if path]  # fmt: skip
+                                                        ("--xlsx", args.xlsx), ("--markdown", args.markdown)) if path]  # fmt: skip
     check_outputs(asked, source_files(args.input))
     entries = read_entries(args.input)
     if err.is_terminal:  # a progress bar on a terminal only; nothing extra when piped
@@ -445,9 +446,10 @@ def _batch(args: argparse.Namespace, out: Console, err: Console) -> int:
         results = assess_all(entries, workers=args.workers)
     results = ranked(results)
     summary = summarize(results, skipped_files(args.input))
-    render: dict[str, Callable[[], str | Iterator[str]]] = {
+    render: dict[str, Callable[[], str | bytes | Iterator[str]]] = {
         "--json": lambda: json_report.batch_json(results, summary),
         "--csv": lambda: csv_report.batch_csv(results, args.units),
+        "--xlsx": lambda: csv_report.batch_xlsx(results, args.units),
         "--markdown": lambda: markdown.batch_markdown(results, summary, args.units),
     }
     write_all([Output(o.option, o.path, render[o.option]()) for o in asked], source_files(args.input))

@@ -42,7 +42,7 @@ class Output:
 
     option: str
     path: str
-    text: str | Iterable[str] = ""
+    text: str | bytes | Iterable[str] = ""
 
 
 def _target(option: str, path: str) -> Path:
@@ -114,11 +114,15 @@ def _stage(output: Output, target: Path) -> str:
     """The output written in full to a temporary file beside its target, with the target's permissions."""
     handle, temporary = tempfile.mkstemp(dir=target.parent, prefix=f".{target.name}.", suffix=".part")
     try:
-        with os.fdopen(handle, "w", encoding="utf-8") as stream:
-            if isinstance(output.text, str):
-                stream.write(output.text)
-            else:
-                stream.writelines(output.text)
+        if isinstance(output.text, bytes):
+            with os.fdopen(handle, "wb") as binary:
+                binary.write(output.text)
+        else:
+            with os.fdopen(handle, "w", encoding="utf-8") as stream:
+                if isinstance(output.text, str):
+                    stream.write(output.text)
+                else:
+                    stream.writelines(output.text)
         try:
             existing = target.stat()
         except FileNotFoundError:

@@ -13,7 +13,7 @@ ROOMS = {
     "faces": {"api", "cli", "output_files", "__init__", "__main__"},
     "reports": {"report", "narrative", "cautions", "vehicle_figures", "command_results"},
     "studies": {"assessment", "exception_study", "sweep", "batch", "merge_operations"},
-    "inputs": {"site", "vehicles", "policy", "inputs", "units", "limits", "fields", "landxml", "errors"},
+    "inputs": {"site", "vehicles", "policy", "inputs", "units", "limits", "fields", "landxml", "spreadsheet", "errors"},
     "models": {"profile", "dynamics", "acceleration", "trajectory", "headways", "critical_gaps", "stream_time",
                "renewal", "merge_behaviour", "merge_reliability", "monte_carlo", "merge_area", "shockwave",
                "critical_gap_estimation"},
