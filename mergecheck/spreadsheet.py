@@ -40,22 +40,31 @@ def sheet_rows(path: str) -> list[tuple[str, dict[str, str]]]:
     except Exception as error:  # the XML inside refused by defusedxml, or malformed
         raise InputError(path, "", f"the workbook cannot be read safely ({type(error).__name__})") from None
     try:
-        sheet = book["sites"] if "sites" in book.sheetnames else book.worksheets[0]
-        rows: list[tuple[str, dict[str, str]]] = []
-        header: list[str] | None = None
-        for number, values in enumerate(sheet.iter_rows(values_only=True), start=1):
-            if number > MOST_ROWS:
-                raise InputError(path, f"sheet {sheet.title!r}", f"more than {MOST_ROWS:,} rows")
-            cells = [_text(v) for v in values]
-            if not any(cells):
-                continue
-            if header is None:
-                header = cells
-                continue
-            label = f"{path}: sheet {sheet.title!r}, row {number}"
-            rows.append((label, dict(zip(header, cells + [""] * (len(header) - len(cells)), strict=False))))
+        return _rows(book, path)
+    except InputError:
+        raise
+    except Exception as error:  # a damaged sheet inside a readable zip: openpyxl raises what its parser meets
+        raise InputError(path, "", f"the workbook is damaged ({type(error).__name__})") from None
     finally:
         book.close()
+
+
+def _rows(book: Any, path: str) -> list[tuple[str, dict[str, str]]]:
+    """(label, row) for each site row of the chosen sheet."""
+    sheet = book["sites"] if "sites" in book.sheetnames else book.worksheets[0]
+    rows: list[tuple[str, dict[str, str]]] = []
+    header: list[str] | None = None
+    for number, values in enumerate(sheet.iter_rows(values_only=True), start=1):
+        if number > MOST_ROWS:
+            raise InputError(path, f"sheet {sheet.title!r}", f"more than {MOST_ROWS:,} rows")
+        cells = [_text(v) for v in values]
+        if not any(cells):
+            continue
+        if header is None:
+            header = cells
+            continue
+        label = f"{path}: sheet {sheet.title!r}, row {number}"
+        rows.append((label, dict(zip(header, cells + [""] * (len(header) - len(cells)), strict=False))))
     if header is None:
         raise InputError(path, "sheet", "the sheet holds no header and no rows")
     if not rows:

@@ -333,6 +333,49 @@ def queue_case(rng: random.Random) -> Case:
     return Case("queue options", [*argv, "--json"], note=" ".join(argv[1:]))
 
 
+def landxml_case(rng: random.Random) -> Case:
+    """A LandXML profile mutated as text (byte and line mutations) or with a station changed."""
+    text = (REPO / "tests" / "data" / "landxml" / "ramp-b.xml").read_text()
+    if rng.random() < 0.4:
+        data = text.replace("1100 106.000", f"{rng.choice(['abc', '-1e309', '1100', '1500 1', 'nan 3', '900 1'])}")
+        refuse, note = True, "a PVI unreadable or out of order"
+        if data == text:
+            data, refuse, note = mutate_bytes(text.encode("utf-8"), rng)
+        else:
+            data = data.encode("utf-8")
+    else:
+        data, refuse, note = mutate_bytes(text.encode("utf-8"), rng)
+    start = rng.choice(["1000 m", "1000 m", "899 m", "1600 m", "1000", "3281 ft"])
+    refuse = refuse or start in ("899 m", "1600 m", "1000")
+    argv = ["accel", "--vehicle", "bus", "--from", "20 km/h", "--to", "60 km/h", "--profile", "p.xml",
+            "--alignment", "Ramp B", "--profile-name", "Design", "--start-station", start, "--json"]  # fmt: skip
+    return Case("LandXML profile", argv, {"p.xml": data}, refuse, [], f"{note}; start {start}")
+
+
+def workbook_case(rng: random.Random) -> Case:
+    """A corridor workbook, its bytes mutated (a workbook is a zip: most mutations break it)."""
+    import io
+
+    import openpyxl
+
+    lines = [line for line in (EXAMPLES / "corridor.csv").read_text().splitlines() if not line.startswith("#")]
+    book = openpyxl.Workbook()
+    sheet = book.active
+    for row in csv.reader(lines[: 1 + rng.randint(1, 3)]):
+        sheet.append([float(c) if _is_number(c) else c for c in row])
+    buffer = io.BytesIO()
+    book.save(buffer)
+    raw = buffer.getvalue()
+    if rng.random() < 0.5:
+        at = rng.randrange(len(raw))
+        raw = raw[:at] + bytes([rng.randrange(256)]) + raw[at + 1 :]
+        note = f"byte {at} changed"
+    else:
+        raw, note = raw[: rng.randrange(len(raw))], "truncated"
+    argv = ["batch", "sites.xlsx", "--workers", "1", "--json", "out.json"]
+    return Case("batch workbook", argv, {"sites.xlsx": raw}, False, ["out.json"], note)
+
+
 PATHS: dict[str, Callable[[random.Random], Case]] = {
     "site file": site_case,
     "vehicle profile": vehicle_case,
@@ -346,6 +389,8 @@ PATHS: dict[str, Callable[[random.Random], Case]] = {
     "gaps options": gaps_case,
     "merge-area options": merge_area_case,
     "queue options": queue_case,
+    "LandXML profile": landxml_case,
+    "batch workbook": workbook_case,
 }
 
 
