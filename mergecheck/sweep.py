@@ -105,7 +105,7 @@ def _with_weight_to_power(entry: SiteVehicle, weight_to_power: float) -> SiteVeh
     if not isinstance(model, PowerLimited):  # passenger cars keep their driver model
         return entry
     body = dataclasses.replace(model.vehicle, power=model.vehicle.mass / weight_to_power)
-    vehicle = dataclasses.replace(entry.vehicle, model=dataclasses.replace(model, vehicle=body), physical=body)
+    vehicle = dataclasses.replace(entry.vehicle, model=dataclasses.replace(model, vehicle=body))
     return dataclasses.replace(entry, vehicle=vehicle)
 
 

@@ -138,8 +138,15 @@ class DesignVehicle:
     parameters: tuple[ParameterRecord, ...]
     origin: str
     """Bundled id or the path of the user's file."""
-    physical: PowerLimitedVehicle | None
-    """The power-limited body (the capability of a passenger car), if any."""
+
+    @property
+    def physical(self) -> PowerLimitedVehicle | None:
+        """The power-limited body, read from the model (a truck's own, a passenger car's capability), if any."""
+        if isinstance(self.model, PowerLimited):
+            return self.model.vehicle
+        if isinstance(self.model, LinearDecreasing):
+            return self.model.capability
+        return None
 
     @property
     def weight_to_power(self) -> float | None:
@@ -251,7 +258,6 @@ def parse_vehicle(text: str, source: str) -> DesignVehicle:
         model=model,
         parameters=tuple(records),
         origin=source,
-        physical=physical,
     )
 
 
