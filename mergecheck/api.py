@@ -116,7 +116,7 @@ def vehicle_records(
                     "merge_speed_m_s": v.merge_speed,
                     "speed_at_convergence_m_s": v.speed_at_convergence,
                     "speed_at_taper_start_m_s": v.speed_at_taper_start,
-                    "speed_differential_at_lane_end_m_s": v.speed_differential_at_lane_end,
+                    "speed_differential_at_taper_start_m_s": v.speed_differential_at_taper_start,
                     "crawl_speed_m_s": v.crawl_speed,
                     "required_length_m": v.required_length,
                     "length_needed_m": v.length_needed,

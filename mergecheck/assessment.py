@@ -93,7 +93,7 @@ class VehicleAssessment:
     """[m]"""
     deficit: float | None
     """How much longer the lane must be (0 when it meets); None if merge speed is never reached. [m]"""
-    speed_differential_at_lane_end: float
+    speed_differential_at_taper_start: float
     """Operating speed minus the vehicle's speed at the start of the taper. [m/s]"""
     large_differential: bool
     crawl_speed: float | None
@@ -282,7 +282,7 @@ def assess_vehicle(
         required_length=required,
         available_length=available,
         deficit=deficit,
-        speed_differential_at_lane_end=differential,
+        speed_differential_at_taper_start=differential,
         large_differential=differential > site.flag_speed_differential,
         crawl_speed=trajectory.crawl_speed,
         critical_gap=entry.critical_gap,

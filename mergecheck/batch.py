@@ -333,7 +333,7 @@ def severity(result: BatchResult) -> tuple[int, float]:
         return (0, 0.0)
     g = a.governing
     if a.basis == "performance" and a.verdict != "meets" and (g.verdict == "cannot-reach" or g.deficit is None):
-        return (1, -g.speed_differential_at_lane_end)
+        return (1, -g.speed_differential_at_taper_start)
     policy = a.policy.minimum_length if a.policy is not None else None
     if a.basis == "policy" and policy is not None:
         margin = a.site.lane_length - policy  # the lane as the table measures it, as the policy basis compares

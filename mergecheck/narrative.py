@@ -218,7 +218,7 @@ def summary_sentence(assessment: SiteAssessment, system: Literal["si", "us"]) ->
         return (
             f"Design vehicle {g.vehicle.id} never reaches its merge speed of {show(g.merge_speed, 'speed', system)}: its crawl speed is "
             f"{show(g.crawl_speed, 'speed', system)}, and it leaves the {lane} lane at "
-            f"{show(g.speed_at_taper_start, 'speed', system)}, {show(g.speed_differential_at_lane_end, 'speed', system)} "
+            f"{show(g.speed_at_taper_start, 'speed', system)}, {show(g.speed_differential_at_taper_start, 'speed', system)} "
             f"below the stream."
         )
     merged = f"{g.merge.by_lane_end:.0%} of them find a gap by the end of the lane"

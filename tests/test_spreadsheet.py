@@ -41,7 +41,7 @@ def test_a_workbook_gives_the_csv_results_and_writes_them_back(cli: Any, repo: P
     assert [s["check"]["vehicles"] for s in a["sites"]] == [s["check"]["vehicles"] for s in b["sites"]]
     written = openpyxl.load_workbook(tmp_path / "out.xlsx", read_only=True)
     rows = list(written["sites"].iter_rows(values_only=True))
-    assert "length_needed_m" in rows[0] and "speed_differential_at_lane_end_km_h" in rows[0]
+    assert "length_needed_m" in rows[0] and "speed_differential_at_taper_start_km_h" in rows[0]
     assert len(rows) == 1 + a["summary"]["sites"]
     available = rows[0].index("available_m")
     assert all(isinstance(r[available], (int, float)) for r in rows[1:])  # numbers stay numbers

@@ -18,7 +18,7 @@ def batch_table(results: list[BatchResult], system: UnitSystem) -> tuple[list[st
         "available": length,
         "deficit": length,
         "policy_minimum": length,
-        "speed_differential_at_lane_end": speed,
+        "speed_differential_at_taper_start": speed,
     }
     header = [f"{c}_{units[c].replace('/', '_')}" if c in units else c for c in COLUMNS]
     rows = []

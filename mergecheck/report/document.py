@@ -217,7 +217,7 @@ def _speeds(a: SiteAssessment, system: UnitSystem) -> Section:
             Value(v.speed_at_convergence, "speed"),
             Value(v.speed_at_taper_start, "speed"),
             Value(v.speed_at_taper_end, "speed"),
-            Value(v.speed_differential_at_lane_end, "speed", flag="large" if v.large_differential else ""),
+            Value(v.speed_differential_at_taper_start, "speed", flag="large" if v.large_differential else ""),
             Value(v.crawl_speed, "speed"),
         )
         for v in a.vehicles
@@ -409,7 +409,7 @@ def _exception(a: SiteAssessment, exception: DesignException, system: UnitSystem
          ("Merged by the end of the lane", "probability"), ("Forced merges in the taper (veh/h)", "per_hour"),
          ("Stops (veh/h)", "per_hour")),
         tuple(
-            (Value(v.vehicle.id), Value(v.speed_differential_at_lane_end, "speed"),
+            (Value(v.vehicle.id), Value(v.speed_differential_at_taper_start, "speed"),
              Value(v.merge.by_lane_end, "probability"), Value(v.merge.forced_merges_per_h, "per_hour"),
              Value(v.merge.stops_per_h, "per_hour"))
             for v in a.vehicles

@@ -125,13 +125,14 @@ def site_json(assessment: SiteAssessment, exception: DesignException | None = No
                 "deficit_m": _number(v.deficit, 3),
                 "merge_station_m": _number(v.merge_station, 3),
                 "speed_at_convergence_m_s": _number(v.speed_at_convergence),
-                "speed_at_lane_end_m_s": _number(v.speed_at_taper_start),
+                "speed_at_taper_start_m_s": _number(v.speed_at_taper_start),
                 "speed_at_taper_end_m_s": _number(v.speed_at_taper_end),
-                "speed_differential_at_lane_end_m_s": _number(v.speed_differential_at_lane_end),
+                "speed_differential_at_taper_start_m_s": _number(v.speed_differential_at_taper_start),
                 "large_speed_differential": v.large_differential,
                 "crawl_speed_m_s": _number(v.crawl_speed),
                 "merge_eligible_station_m": _number(v.merge.eligible_station, 3),
                 "merge_model": v.merge.model,
+                # the lane's end is the end of the length available: the taper's start plus the taper credit
                 "merge_probability_by_lane_end": _number(v.merge.by_lane_end),
                 "merge_probability_by_taper_end": _number(v.merge.by_taper_end),
                 "length_for_reliability_m": _number(v.merge.length_for_reliability, 3),
@@ -188,7 +189,7 @@ def design_exception_json(study: DesignException) -> dict[str, Any]:
         "consequences": [
             {
                 "vehicle": v.vehicle.id,
-                "speed_differential_at_taper_start_m_s": _number(v.speed_differential_at_lane_end),
+                "speed_differential_at_taper_start_m_s": _number(v.speed_differential_at_taper_start),
                 "merge_probability_by_lane_end": _number(v.merge.by_lane_end),
                 "forced_merges_veh_h": _number(v.merge.forced_merges_per_h, 3),
                 "stops_veh_h": _number(v.merge.stops_per_h, 3),

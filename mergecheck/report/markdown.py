@@ -100,7 +100,7 @@ def batch_markdown(results: list[BatchResult], summary: BatchSummary, system: Un
         lines.append(
             f"| {rank} | {_cell(row['site'])} | **{row['verdict']}** | `{row['governing_vehicle']}` ({row['governing_verdict']}) "
             f"| {row['length_needed']} | {row['available']} | {row['deficit'] or '-'} | {row['policy_minimum'] or '-'} "
-            f"| {row['speed_differential_at_lane_end']} | {float(row['merged_by_lane_end']):.1%} | {row['los'] or '-'} |"
+            f"| {row['speed_differential_at_taper_start']} | {float(row['merged_by_lane_end']):.1%} | {row['los'] or '-'} |"
         )
     lines += ["", "## Cautions", ""]
     lines += [f"- {c}" for c in CAUTIONS]

@@ -327,7 +327,7 @@ def batch_view(results: list[BatchResult], summary: BatchSummary, system: UnitSy
             row["length_needed"],
             row["available"],
             row["deficit"] or "-",
-            row["speed_differential_at_lane_end"],
+            row["speed_differential_at_taper_start"],
         )
     parts: list[RenderableType] = [head, Text(f"Short sites by governing vehicle: {by_vehicle}"), skipped, table]
     rest = len(results) - BATCH_ROWS_SHOWN
