@@ -15,17 +15,7 @@ import math
 from dataclasses import dataclass
 
 from .errors import InputError
-
-_SHOWN: dict[str, tuple[str, float]] = {
-    "flow": ("veh/h", 3600.0),
-    "time": ("s", 1.0),
-    "length": ("m", 1.0),
-    "speed": ("km/h", 3.6),
-    "grade": ("%", 100.0),
-    "weight_to_power": ("kg/kW", 1000.0),
-    "acceleration": ("m/s^2", 1.0),
-    "density": ("veh/km", 1000.0),
-}
+from .units import DISPLAY
 
 
 @dataclass(frozen=True, slots=True)
@@ -43,8 +33,8 @@ class Limit:
     @property
     def rule(self) -> str:
         """The rule in words, e.g. 'must be 0 or lie between 1 and 3000 veh/h'."""
-        unit, factor = _SHOWN[self.kind]
-        span = f"lie between {self.low * factor:g} and {self.high * factor:g} {unit}"
+        shown = DISPLAY["si"][self.kind]
+        span = f"lie between {shown.value(self.low):g} and {shown.value(self.high):g} {shown.symbol}"
         return f"must be 0 or {span}" if self.zero else f"must {span}"
 
     def check(self, value: float, source: str, field: str) -> float:
