@@ -36,7 +36,8 @@ def site_markdown(document: SiteDocument) -> str:
         "",
         _cell(document.summary),
         "",
-        f"Site file: {_cell(document.source)}",
+        f"Site file: {_cell(document.source)}. Made {document.prepared_on}; the figures are in the HTML report"
+        " (`--html`).",
         "",
     ]
     if document.notes:
