@@ -26,7 +26,7 @@ from .api import (
     to_markdown,
     vehicle_records,
 )
-from .assessment import SiteAssessment, VehicleAssessment
+from .assessment import SiteAssessment, SiteCheck, VehicleAssessment, VehicleCurves
 from .batch import BatchResult
 from .errors import InputError
 from .site import Site
@@ -39,8 +39,10 @@ __all__ = [
     "InputError",
     "Site",
     "SiteAssessment",
+    "SiteCheck",
     "Sweep",
     "VehicleAssessment",
+    "VehicleCurves",
     "__version__",
     "assess",
     "assess_batch",

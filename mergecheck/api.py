@@ -11,7 +11,7 @@ import os
 from collections.abc import Callable, Iterable, Mapping, Sequence
 from typing import Any
 
-from .assessment import SiteAssessment, assess_many
+from .assessment import SiteAssessment, SiteCheck, assess_many
 from .assessment import assess as _assess
 from .batch import BatchResult, SiteEntry, assess_all, ranked, read_entries
 from .exception_study import DesignException
@@ -55,14 +55,14 @@ def site_from_dict(data: Mapping[str, Any], *, source: str = "site") -> Site:
 
 def assess(
     site: Site, *, monte_carlo: int = 0, seed: int = 20261202, progress: Callable[[int], None] | None = None
-) -> SiteAssessment:
+) -> SiteCheck:
     """Assess every design vehicle at a site against the policy table and their own needs
     (:func:`mergecheck.assessment.assess`); ``monte_carlo`` adds a seeded simulation of that many drivers,
     ``progress`` is told how many have been drawn as each batch of them is done."""
     return _assess(site, monte_carlo=monte_carlo, seed=seed, progress=progress)
 
 
-def assess_sites(sites: Sequence[Site]) -> list[SiteAssessment]:
+def assess_sites(sites: Sequence[Site]) -> list[SiteCheck]:
     """Assess many sites in one pass (each result equals :func:`assess` of that site alone)."""
     return assess_many(list(sites))
 
@@ -139,7 +139,7 @@ def to_json(result: SiteAssessment, *, exception: bool | DesignException = False
     return json_report.dumps(json_report.site_json(result, _exception(result, exception)))
 
 
-def to_markdown(result: SiteAssessment, *, units: UnitSystem = "si", exception: bool | DesignException = False) -> str:
+def to_markdown(result: SiteCheck, *, units: UnitSystem = "si", exception: bool | DesignException = False) -> str:
     """The Markdown report, with the design-exception section when a vehicle falls short or ``exception`` is
     set (or given, as :func:`design_exception` made it)."""
     from .report import markdown
@@ -148,7 +148,7 @@ def to_markdown(result: SiteAssessment, *, units: UnitSystem = "si", exception: 
     return markdown.site_markdown(site_document(result, units, _exception(result, exception)))
 
 
-def to_html(result: SiteAssessment, *, units: UnitSystem = "si", exception: bool | DesignException = False) -> str:
+def to_html(result: SiteCheck, *, units: UnitSystem = "si", exception: bool | DesignException = False) -> str:
     """The self-contained HTML report with its figures (inline SVG; every user string escaped)."""
     from .report import html  # matplotlib is slow to import: only when a page is asked for
     from .report.document import site_document

@@ -30,7 +30,7 @@ value; both are always reported.
 from __future__ import annotations
 
 from collections.abc import Callable
-from dataclasses import dataclass, replace
+from dataclasses import dataclass, fields
 from typing import Literal, NamedTuple
 
 import numpy as np
@@ -39,7 +39,7 @@ from numpy.typing import NDArray
 from .critical_gaps import CriticalGap
 from .headways import HeadwayModel, headway_model
 from .merge_operations import MergeOperations, merge_operations
-from .merge_reliability import MergeReliability, MergeSetting, merge_reliabilities
+from .merge_reliability import Merge, MergeCurves, MergeReliability, MergeSetting, merge_reliabilities
 from .monte_carlo import MonteCarloCheck, monte_carlo_check
 from .policy import PolicyTable, PolicyValue, initial_speed_for, load_policy, policy_minimum
 from .site import Site, SiteVehicle
@@ -77,8 +77,6 @@ class VehicleAssessment:
     """[m/s]"""
     merge_speed_differential: float
     """[m/s]"""
-    trajectory: Trajectory | None
-    """Speed along the path; None once dropped (batch results keep the figures only)."""
     speed_at_convergence: float
     """[m/s]"""
     speed_at_taper_start: float
@@ -142,14 +140,26 @@ class SiteAssessment:
     """Why the merge-area method was not applied to a site that gives a mainline flow ('' when applied or when
     there is no mainline flow)."""
 
+
+@dataclass(frozen=True, slots=True)
+class VehicleCurves:
+    """One design vehicle's speed and merge probability along its path."""
+
+    trajectory: Trajectory
+    merge: MergeCurves
+
+
+@dataclass(frozen=True, slots=True, kw_only=True)
+class SiteCheck(SiteAssessment):
+    """A single site's assessment with every vehicle's curves along the path (what the figures and the
+    slowing notes of a report read); a batch keeps the :class:`SiteAssessment` figures only."""
+
+    curves: tuple[VehicleCurves, ...]
+    """One per vehicle, in the order of ``vehicles``."""
+
     def figures_only(self) -> SiteAssessment:
-        """The same assessment without the curves along the path (what a batch keeps of each site)."""
-        slim = tuple(
-            replace(v, trajectory=None, merge=replace(v.merge, curve=None, unhurried=None, check=None))
-            for v in self.vehicles
-        )
-        governing = next(i for i, v in enumerate(self.vehicles) if v is self.governing)
-        return replace(self, vehicles=slim, governing=slim[governing])
+        """The figures without the curves (what a batch keeps of each site)."""
+        return SiteAssessment(**{f.name: getattr(self, f.name) for f in fields(SiteAssessment)})
 
 
 def adjacent_headways(site: Site) -> HeadwayModel | None:
@@ -230,13 +240,14 @@ def assess_vehicle(
     initial_speed: float,
     trajectory: Trajectory,
     speeds: Landmarks,
-    merge: MergeReliability,
+    merge: Merge,
     monte_carlo: int = 0,
     seed: int = 0,
     progress: Callable[[int], None] | None = None,
 ) -> VehicleAssessment:
     """Read one design vehicle's trajectory and merge probability against the lane."""
     at_convergence, at_taper_start, at_taper_end = speeds
+    figures, curves = merge
     merge_station = trajectory.target_station
     available = site.available_length
     required = None if merge_station is None else max(0.0, merge_station - site.convergence)
@@ -244,7 +255,8 @@ def assess_vehicle(
     simulated = None
     if monte_carlo > 0:
         simulated = monte_carlo_check(
-            merge,
+            figures,
+            curves.check,
             lane_end=site.convergence + available,
             taper_end=site.taper_end,
             headways=adjacent_headways(site),
@@ -255,8 +267,8 @@ def assess_vehicle(
         )
     needed = (
         None
-        if required is None or merge.length_for_reliability is None
-        else max(required, merge.length_for_reliability)
+        if required is None or figures.length_for_reliability is None
+        else max(required, figures.length_for_reliability)
     )
     verdict: VehicleVerdict
     deficit: float | None = None
@@ -274,7 +286,6 @@ def assess_vehicle(
         initial_speed=initial_speed,
         merge_speed=entry.merge_speed,
         merge_speed_differential=entry.merge_speed_differential,
-        trajectory=trajectory,
         speed_at_convergence=at_convergence,
         speed_at_taper_start=at_taper_start,
         speed_at_taper_end=at_taper_end,
@@ -287,7 +298,7 @@ def assess_vehicle(
         crawl_speed=trajectory.crawl_speed,
         critical_gap=entry.critical_gap,
         stop_critical_gap=entry.stop_critical_gap,
-        merge=merge,
+        merge=figures,
         monte_carlo=simulated,
         length_needed=needed,
         verdict=verdict,
@@ -309,7 +320,7 @@ def governing_vehicle(results: tuple[VehicleAssessment, ...]) -> VehicleAssessme
 
 def assess(
     site: Site, *, monte_carlo: int = 0, seed: int = 20261202, progress: Callable[[int], None] | None = None
-) -> SiteAssessment:
+) -> SiteCheck:
     """Assess every design vehicle at a site and compare with the policy table.
 
     ``monte_carlo`` > 0 adds a simulated check of each vehicle's merge
@@ -325,7 +336,7 @@ def assess_many(
     monte_carlo: int = 0,
     seed: int = 20261202,
     progress: Callable[[int], None] | None = None,
-) -> list[SiteAssessment]:
+) -> list[SiteCheck]:
     """Assess many sites; every trajectory of every site is integrated in one pass.
 
     A site's result does not depend on the other sites: each vehicle's
@@ -344,8 +355,10 @@ def assess_many(
         [stations[k] for k, _ in entries], [v[3:] for v in along], [merge_setting(sites[k], e) for k, e in entries]
     )
     vehicles: list[list[VehicleAssessment]] = [[] for _ in sites]
+    curves: list[list[VehicleCurves]] = [[] for _ in sites]
     for (k, entry), trajectory, v, merge in zip(entries, trajectories, along, merges, strict=True):
         order = len(vehicles[k])
+        curves[k].append(VehicleCurves(trajectory, merge.curves))
         vehicles[k].append(
             assess_vehicle(
                 sites[k],
@@ -360,8 +373,8 @@ def assess_many(
             )
         )
     return [
-        _site_assessment(site, table, speed, basis, tuple(results))
-        for site, table, (speed, basis), results in zip(sites, tables, initial, vehicles, strict=True)
+        _site_assessment(site, table, speed, basis, tuple(results), tuple(lines))
+        for site, table, (speed, basis), results, lines in zip(sites, tables, initial, vehicles, curves, strict=True)
     ]
 
 
@@ -386,7 +399,8 @@ def _site_assessment(
     initial: float,
     initial_basis: str,
     results: tuple[VehicleAssessment, ...],
-) -> SiteAssessment:
+    curves: tuple[VehicleCurves, ...],
+) -> SiteCheck:
     governing = governing_vehicle(results)
     span = site.lane_length if site.lane_length > 0 else site.taper_length  # a taper-type entrance with no lane
     at_convergence, at_end = site.profile.elevation([site.convergence, site.convergence + span])
@@ -401,9 +415,10 @@ def _site_assessment(
     if site.verdict_basis == "policy" and policy_verdict != "none":
         basis, verdict = "policy", policy_verdict
     merge = merge_operations(site, {r.vehicle.id: r.speed_at_taper_start for r in results})
-    return SiteAssessment(
+    return SiteCheck(
         site=site,
         vehicles=results,
+        curves=curves,
         governing=governing,
         verdict=verdict,
         basis=basis,

@@ -48,10 +48,9 @@ class MergeCurve:
 
 @dataclass(frozen=True, slots=True, kw_only=True)
 class MergeReliability:
-    """How likely one design vehicle is to complete its merge, and what happens to those who do not."""
+    """How likely one design vehicle is to complete its merge, and what happens to those who do not (the figures;
+    the probability along the path is in :class:`MergeCurves`)."""
 
-    curve: MergeCurve | None
-    """The probability along the path; None once dropped (batch results keep the figures only)."""
     stream_time_at_lane_end: float
     stream_time_at_taper_end: float
     """tau of Eq. (1) at the end of the lane and of the taper. [s]"""
@@ -71,11 +70,26 @@ class MergeReliability:
     """Mean wait of a stopped vehicle for a gap (from-stop critical gap). [s]"""
     model: Literal["active", "classic"] = "classic"
     """Which merge behaviour the probability assumes (:mod:`mergecheck.merge_behaviour` or this module's)."""
-    unhurried: MergeCurve | None = None
+
+
+@dataclass(frozen=True, slots=True)
+class MergeCurves:
+    """One design vehicle's merge probability along its path (kept by a single check, not by a batch)."""
+
+    site: MergeCurve
+    """The probability of having merged at the site, lane-end pressure and forced merges included."""
+    unhurried: MergeCurve | None
     """Active model: the probability on a lane imagined long enough, without the lane-end pressure and forced
-    merges; the length for the target reliability is read from it. None for the classic model or once dropped."""
-    check: ActiveCheck | None = None
-    """Active model: what a Monte Carlo of the same behaviour needs; None for the classic model or once dropped."""
+    merges (the length for the target reliability is read from it); the classic model has none."""
+    check: ActiveCheck | None
+    """Active model: what a Monte Carlo of the same behaviour needs; the classic model has none."""
+
+
+class Merge(NamedTuple):
+    """A vehicle's merge figures and the curves they come from."""
+
+    figures: MergeReliability
+    curves: MergeCurves
 
 
 @dataclass(frozen=True, slots=True)
@@ -134,7 +148,7 @@ def merge_reliability(
     search_length: float = 3000.0,
     behaviour: MergeBehaviour | None = None,
     taper_start: float | None = None,
-) -> MergeReliability:
+) -> Merge:
     """Merge probability along the lane for one design vehicle (module docstring, Eqs. 1-3; with
     ``behaviour``, the active model of :mod:`mergecheck.merge_behaviour`).
 
@@ -169,7 +183,7 @@ def merge_reliability(
 
 def merge_reliabilities(
     stations: Sequence[FloatArray], speeds: Sequence[FloatArray], settings: Sequence[MergeSetting]
-) -> list[MergeReliability]:
+) -> list[Merge]:
     """:func:`merge_reliability` for many vehicles at once, one row each; rows do not interact.
 
     Rows are padded to a common length by repeating their last sample (zero-length segments add no
@@ -242,21 +256,27 @@ def merge_reliabilities(
         n = solved[r]
         headways = setting.headways
         results.append(
-            MergeReliability(
-                curve=MergeCurve(station[r, :n], probability[r, :n], tau[r, :n]),
-                stream_time_at_lane_end=float(tau_lane_end[r]),
-                stream_time_at_taper_end=float(tau_taper_end[r]),
-                eligible_station=float(x_a[r]) if eligible[r] else None,
-                by_lane_end=float(by_lane_end[r]),
-                by_taper_end=float(by_taper_end[r]),
-                reliability=setting.reliability,
-                length_for_reliability=None if np.isnan(length[r]) else max(0.0, float(length[r])),
-                forced_merges_per_h=float(flow[r] * 3600 * max(0.0, by_taper_end[r] - by_lane_end[r])),
-                stops_per_h=float(flow[r] * 3600 * (1.0 - by_taper_end[r])),
-                mean_stopped_wait=0.0 if headways is None else stopped_wait(headways, setting.stop_critical_gap),
-                model="classic" if setting.behaviour is None else "active",
-                unhurried=unhurried.get(r),
-                check=None if r not in checks else ActiveCheck(checks[r].rules, checks[r].decided, checks[r].crossing),
+            Merge(
+                MergeReliability(
+                    stream_time_at_lane_end=float(tau_lane_end[r]),
+                    stream_time_at_taper_end=float(tau_taper_end[r]),
+                    eligible_station=float(x_a[r]) if eligible[r] else None,
+                    by_lane_end=float(by_lane_end[r]),
+                    by_taper_end=float(by_taper_end[r]),
+                    reliability=setting.reliability,
+                    length_for_reliability=None if np.isnan(length[r]) else max(0.0, float(length[r])),
+                    forced_merges_per_h=float(flow[r] * 3600 * max(0.0, by_taper_end[r] - by_lane_end[r])),
+                    stops_per_h=float(flow[r] * 3600 * (1.0 - by_taper_end[r])),
+                    mean_stopped_wait=0.0 if headways is None else stopped_wait(headways, setting.stop_critical_gap),
+                    model="classic" if setting.behaviour is None else "active",
+                ),
+                MergeCurves(
+                    site=MergeCurve(station[r, :n], probability[r, :n], tau[r, :n]),
+                    unhurried=unhurried.get(r),
+                    check=None
+                    if r not in checks
+                    else ActiveCheck(checks[r].rules, checks[r].decided, checks[r].crossing),
+                ),
             )
         )
     return results

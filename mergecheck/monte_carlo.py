@@ -16,6 +16,7 @@ from .critical_gaps import CriticalGap
 from .headways import HeadwayModel
 from .merge_behaviour import CELL, simulate
 from .merge_reliability import (
+    ActiveCheck,
     MergeReliability,
 )
 from .renewal import simulate_merges
@@ -40,6 +41,7 @@ MONTE_CARLO_BATCH = 200_000
 
 def monte_carlo_check(
     result: MergeReliability,
+    check: ActiveCheck | None,
     *,
     lane_end: float,
     taper_end: float,
@@ -71,7 +73,7 @@ def monte_carlo_check(
     merged = np.zeros(2, dtype=np.int64)
     for start in range(0, count, MONTE_CARLO_BATCH):
         size = min(MONTE_CARLO_BATCH, count - start)
-        merged += _merged_by_ends(result, lane_end, taper_end, headways, critical_gap, size, rng)
+        merged += _merged_by_ends(result, check, lane_end, taper_end, headways, critical_gap, size, rng)
         if progress is not None:
             progress(size)
     probabilities = [float(m) / count for m in merged]
@@ -81,6 +83,7 @@ def monte_carlo_check(
 
 def _merged_by_ends(
     result: MergeReliability,
+    check: ActiveCheck | None,
     lane_end: float,
     taper_end: float,
     headways: HeadwayModel,
@@ -90,8 +93,8 @@ def _merged_by_ends(
 ) -> NDArray[np.int64]:
     """How many of ``count`` simulated drivers have merged by the end of the lane and by the end of the taper."""
     assert result.eligible_station is not None
-    if result.check is not None:  # the active model: the same behaviour drawn gap by gap
-        c = result.check
+    if check is not None:  # the active model: the same behaviour drawn gap by gap
+        c = check
         at = simulate(headways, critical_gap.sample(rng, count), c.rules, 0, rng)
         cell = np.minimum(np.round(np.where(np.isfinite(at), at, 0.0) / CELL).astype(np.intp), c.rules.cells[0] - 1)
         where = np.where(np.isfinite(at), np.interp(c.rules.station[0, cell], c.station, c.crossing), np.inf)

@@ -97,7 +97,7 @@ def test_reliability_consequences() -> None:
     """Forced merges and stops are the class flow times the probabilities (issue 4)."""
     x = np.linspace(0.0, 1500.0, 1501)
     speed = np.minimum(15.0 + 0.03 * x, 26.0)
-    result = merge_reliability(
+    result, curves = merge_reliability(
         x,
         speed,
         convergence=100.0,
@@ -119,9 +119,8 @@ def test_reliability_consequences() -> None:
     assert result.stops_per_h == pytest.approx(300 * (1 - result.by_taper_end))
     assert result.forced_merges_per_h == pytest.approx(300 * (result.by_taper_end - result.by_lane_end))
     assert result.length_for_reliability is not None
-    assert result.curve is not None
     assert float(
-        np.interp(100.0 + result.length_for_reliability, result.curve.station, result.curve.probability)
+        np.interp(100.0 + result.length_for_reliability, curves.site.station, curves.site.probability)
     ) == pytest.approx(0.95, abs=1e-3)
     assert result.mean_stopped_wait > 0
 
@@ -212,8 +211,8 @@ def test_many_vehicles_at_once_equal_one_at_a_time() -> None:
                   reliability=0.95, flow=300 / 3600, search_length=1500.0)  # fmt: skip
     settings = [MergeSetting(headways=h, critical_gap=g, **common) for _, h, g in cases]  # type: ignore[arg-type]
     together = merge_reliabilities([x] * len(cases), [v for v, _, _ in cases], settings)
-    for (speed, headways, gap), joint in zip(cases, together, strict=True):
-        alone = merge_reliability(x, speed, headways=headways, critical_gap=gap, **common)  # type: ignore[arg-type]
+    for (speed, headways, gap), (joint, _) in zip(cases, together, strict=True):
+        alone, _ = merge_reliability(x, speed, headways=headways, critical_gap=gap, **common)  # type: ignore[arg-type]
         for field in ("by_lane_end", "by_taper_end", "length_for_reliability", "eligible_station", "stops_per_h"):
             a, b = getattr(joint, field), getattr(alone, field)
             assert (a is None and b is None) or a == pytest.approx(b, rel=1e-9, abs=1e-12), field

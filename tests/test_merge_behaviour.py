@@ -9,19 +9,18 @@ from typing import Any
 import numpy as np
 import pytest
 
-from mergecheck.assessment import SiteAssessment, assess
+from mergecheck.assessment import SiteCheck, assess
 from mergecheck.critical_gaps import CriticalGap
 from mergecheck.headways import CowanM3
 from mergecheck.merge_behaviour import CELL, MergeBehaviour, Rules, rule_along, simulate, solve
 from mergecheck.renewal import not_merged
 
 
-def positions(result: SiteAssessment) -> tuple[float, float, float]:
+def positions(result: SiteCheck) -> tuple[float, float, float]:
     """Median, mean and standard deviation of the merge position within the lane, as shares of its length,
     among drivers who merge by the end of the lane."""
-    v, s = result.vehicles[0], result.site
-    curve = v.merge.curve
-    assert curve is not None
+    s = result.site
+    curve = result.curves[0].merge.site
     x = np.linspace(s.convergence, s.taper_start, 501)
     p = np.interp(x, curve.station, curve.probability) / np.interp(s.taper_start, curve.station, curve.probability)
     share = (x - s.convergence) / s.lane_length
@@ -161,8 +160,7 @@ def test_merges_at_free_flow_fall_mostly_in_the_first_half_of_the_lane(make_site
         result = assess(make_site(mainline__adjacent_lane_flow=f"{flow} veh/h"))
         median, _, _ = positions(result)
         assert 0.15 <= median <= 0.5
-        curve, s = result.vehicles[0].merge.curve, result.site
-        assert curve is not None
+        curve, s = result.curves[0].merge.site, result.site
         at = np.interp([s.convergence + 0.75 * s.lane_length, s.taper_start], curve.station, curve.probability)
         late.append((at[1] - at[0]) / at[1])
     assert late == sorted(late) and late[-1] > 1.5 * late[0]

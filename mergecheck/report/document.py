@@ -14,7 +14,7 @@ import datetime
 from dataclasses import dataclass
 from typing import Literal
 
-from ..assessment import SiteAssessment
+from ..assessment import SiteAssessment, SiteCheck
 from ..cautions import CAUTIONS
 from ..exception_study import DesignException
 from ..merge_area import MergeArea
@@ -132,9 +132,7 @@ class SiteDocument:
     """The date the report was made (ISO 8601)."""
 
 
-def site_document(
-    assessment: SiteAssessment, system: UnitSystem, exception: DesignException | None = None
-) -> SiteDocument:
+def site_document(assessment: SiteCheck, system: UnitSystem, exception: DesignException | None = None) -> SiteDocument:
     """Every section of the site report, in the order a reader needs them."""
     a, site = assessment, assessment.site
     sections = [

@@ -10,7 +10,7 @@ from __future__ import annotations
 import jinja2
 
 from .. import __version__
-from ..assessment import SiteAssessment
+from ..assessment import SiteCheck
 from . import plots
 from .document import SiteDocument, unit_of
 
@@ -32,7 +32,7 @@ def css_string(text: str) -> str:
 _ENVIRONMENT.filters["css_string"] = css_string
 
 
-def site_html(document: SiteDocument, assessment: SiteAssessment) -> str:
+def site_html(document: SiteDocument, assessment: SiteCheck) -> str:
     """The report page: the document laid out, with the figures drawn from the assessment it was built from."""
     system = document.system
     figures = {

@@ -18,7 +18,7 @@ import numpy as np
 from matplotlib.axes import Axes
 from matplotlib.figure import Figure
 
-from ..assessment import SiteAssessment
+from ..assessment import SiteAssessment, SiteCheck
 from ..units import UnitSystem, convert, unit_symbol
 
 PALETTE = ("#1f4e79", "#b5522e", "#4f7942", "#7b4f9d", "#a88b2c", "#3c3c3c")
@@ -160,17 +160,15 @@ def _exaggeration(fig: Figure, ax: Axes) -> float:
     return float(((x1 - x0) / width) / ((y1 - y0) / height))
 
 
-def speed_figure(assessment: SiteAssessment, system: UnitSystem) -> str:
+def speed_figure(assessment: SiteCheck, system: UnitSystem) -> str:
     """Speed against distance for every design vehicle, with merge and operating speeds and landmarks."""
     site = assessment.site
     end = _x_limit(assessment)
     fig, ax = plt.subplots(figsize=(7.5, 3.8))
     c = _converter("length", system)
     s = _converter("speed", system)
-    for i, v in enumerate(assessment.vehicles):
-        if v.trajectory is None:
-            raise ValueError("the speed figure needs the trajectories (a full single-site assessment)")
-        station, speed, _ = v.trajectory.samples()
+    for i, (v, lines) in enumerate(zip(assessment.vehicles, assessment.curves, strict=True)):
+        station, speed, _ = lines.trajectory.samples()
         keep = station <= end
         ax.plot(c(station[keep]), s(speed[keep]), label=v.vehicle.id, **_vehicle_line(i))
         if v.merge_station is not None and v.merge_station <= end:
@@ -195,15 +193,13 @@ def speed_figure(assessment: SiteAssessment, system: UnitSystem) -> str:
     return _svg(fig)
 
 
-def merge_figure(assessment: SiteAssessment, system: UnitSystem) -> str:
+def merge_figure(assessment: SiteCheck, system: UnitSystem) -> str:
     """Probability of having merged by each station, per design vehicle."""
     end = _x_limit(assessment)
     fig, ax = plt.subplots(figsize=(7.5, 3.0))
     c = _converter("length", system)
     for i, v in enumerate(assessment.vehicles):
-        m = v.merge.curve
-        if m is None:
-            raise ValueError("the merge figure needs the probability curves (a full single-site assessment)")
+        m = assessment.curves[i].merge.site
         keep = m.station <= end
         ax.plot(c(m.station[keep]), m.probability[keep], label=v.vehicle.id, **_vehicle_line(i))
     target = assessment.site.gaps.reliability

@@ -5,7 +5,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..assessment import SiteAssessment
+from ..assessment import SiteAssessment, SiteCheck
 from ..exception_study import Mitigation
 from ..merge_operations import MergeOperations
 from ..site import Site
@@ -44,14 +44,12 @@ def verdict_bases(assessment: SiteAssessment, system: UnitSystem) -> tuple[str, 
     return f"Verdict {on}.", policy, performance
 
 
-def slowing_notes(assessment: SiteAssessment, system: UnitSystem) -> list[str]:
+def slowing_notes(assessment: SiteCheck, system: UnitSystem) -> list[str]:
     """One line per design vehicle that loses speed on the ramp's upgrade before the end of the lane."""
     notes = []
     site = assessment.site
-    for v in assessment.vehicles:
-        t = v.trajectory
-        if t is None:
-            continue
+    for v, lines in zip(assessment.vehicles, assessment.curves, strict=True):
+        t = lines.trajectory
         stations = np.linspace(t.start, min(site.taper_start, t.end), 200)
         speeds = t.speed_at(stations)
         low = int(np.argmin(speeds))
