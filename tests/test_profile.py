@@ -84,3 +84,13 @@ def test_stacked_rows_of_different_lengths_each_give_their_own_profile() -> None
     assert np.array_equal(stack.grade(x, index), [float(p.grade(xi)) for p, xi in zip(rows, x, strict=True)])
     assert np.allclose(stack.elevation(x, index), [float(p.elevation(xi)) for p, xi in zip(rows, x, strict=True)])
     assert stack.next_knot(np.array([0.0, 0.0, 0.0, 500.0]), index).tolist() == [190.0, 2.0, 1e12, 1e12]
+
+
+def test_elevation_is_relative_to_station_0_when_changes_lie_before_it() -> None:
+    """A profile read from a design model begins before the ramp path: a change at -100 m and a curve across 0.
+    Elevations stay the integral of the grade from station 0 (scipy.integrate.quad, reference library)."""
+    profile = VerticalProfile(0.02, (GradeChange(-100.0, -0.01, 0.0), GradeChange(0.0, 0.04, 80.0)))
+    assert float(profile.elevation(0.0)) == pytest.approx(0.0, abs=1e-12)
+    for station in (-150.0, -60.0, 25.0, 200.0):
+        expected, _ = quad(lambda x: float(profile.grade(x)), 0.0, station, points=[-100.0, -40.0, 40.0], limit=200)
+        assert float(profile.elevation(station)) == pytest.approx(expected, abs=1e-9)
