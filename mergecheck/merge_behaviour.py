@@ -408,10 +408,10 @@ class _Group:
 
     def __init__(
         self, index: IntArray, width: int, family: _Streams, rows: IntArray, tc: FloatArray, weight: FloatArray,
-        fresh: FloatArray, beside: FloatArray,
+        fresh: FloatArray,
     ) -> None:  # fmt: skip
         self.index, self.width, self.family = index, width, family
-        self.rows, self.tc, self.weight, self.fresh, self.beside = rows, tc, weight, fresh, beside
+        self.rows, self.tc, self.weight, self.fresh = rows, tc, weight, fresh
         self.upper = (np.arange(width) + 0.5) * CELL
         self.top = family.cdf(np.broadcast_to(self.upper, (index.size, width)).copy())
 
@@ -430,12 +430,15 @@ class _Group:
         span = n_cells + width + 2
         fresh = np.zeros((index.size, span))  # by absolute cell: nothing shifts as the solution advances
         fresh[:, 1 : width + 1] = np.diff(refused, axis=1)  # r in [i dt, (i + 1) dt): next gap alongside at i + 1
-        beside = np.zeros((index.size, span))
-        beside[:, :width] = refused[:, -1:] - refused[:, :width]  # refused first gap still beside at cell i
-        return cls(index, width, fam, row_of[index], tc[index], weight[index], fresh, beside)
+        return cls(index, width, fam, row_of[index], tc[index], weight[index], fresh)
 
     def step(self, s: int, rules: Rules, v_count: int) -> FloatArray:
-        """Judge the gaps coming alongside at cell s; the weighted P_not of each row at s. (V,)"""
+        """Judge the gaps coming alongside at cell s; the weighted P_not of each row at s. (V,)
+
+        ``fresh`` holds, by absolute cell, the probability that a refused gap ends there (the next gap comes
+        alongside). Not having merged at s is being beside a refused gap that has not ended: the sum of
+        ``fresh`` over the cells after s, all within the window of the widest gap.
+        """
         r, width = self.rows, self.width
         c = rules.share[r, s] * self.tc + rules.closing[r, s]
         f = np.minimum(rules.forced[r, s], c)
@@ -444,10 +447,13 @@ class _Group:
         # with P(h <= min(top, t)) = min(P(h <= top), P(h <= t)) as the distribution function is monotone
         cum = np.minimum(self.top, self.family.cdf(f)[:, None])
         cum *= p[:, None]
-        cum += (1 - p)[:, None] * np.minimum(self.top, self.family.cdf(c)[:, None])
-        cell = np.diff(cum, axis=1, prepend=0.0)
+        upto_c = np.minimum(self.top, self.family.cdf(c)[:, None])
+        upto_c *= (1 - p)[:, None]
+        cum += upto_c
+        cell = upto_c  # reused: the refused mass of each cell, the first cell's from 0
+        cell[:, 0] = cum[:, 0]
+        np.subtract(cum[:, 1:], cum[:, :-1], out=cell[:, 1:])
         ahead = self.fresh[:, s : s + width + 1]
-        near = self.beside[:, s : s + width + 1]
         g = ahead[:, 0] / np.maximum(1.0 - cell[:, 0], 1e-12)
         end = rules.force_cell[r] == s
         if end.any():  # at the end of the lane: refused gaps with enough left behind the driver are forced
@@ -456,12 +462,10 @@ class _Group:
                 np.arange(width + 1)[None, :] + 0.5 - rules.forced_lag[r[end], s][:, None] / CELL, 0.0, 1.0
             )
             beyond[:, 0] = 0.0
-            taken = beyond * ahead[end]
-            ahead[end] -= taken
-            near[end] -= np.cumsum(taken[:, ::-1], axis=1)[:, ::-1] - taken  # taken gaps end after cell i
+            ahead[end] -= beyond * ahead[end]
         ahead[:, 1:width] += g[:, None] * cell[:, 1:]
-        near[:, :width] += g[:, None] * (cum[:, -1:] - cum)
-        return np.asarray(np.bincount(r, weights=self.weight * near[:, 0], minlength=v_count), dtype=float)
+        beside = ahead[:, 1:].sum(axis=1)  # refused gaps that end after s
+        return np.asarray(np.bincount(r, weights=self.weight * beside, minlength=v_count), dtype=float)
 
     def keep(self, running: NDArray[np.bool_]) -> _Group:
         """The group without the rows of finished design vehicles, once they are many (copying is dear)."""
@@ -471,7 +475,7 @@ class _Group:
         new = object.__new__(_Group)
         new.index, new.width, new.family = self.index[keep], self.width, self.family.take(np.flatnonzero(keep))
         new.rows, new.tc, new.weight = self.rows[keep], self.tc[keep], self.weight[keep]
-        new.fresh, new.beside, new.upper, new.top = self.fresh[keep], self.beside[keep], self.upper, self.top[keep]
+        new.fresh, new.upper, new.top = self.fresh[keep], self.upper, self.top[keep]
         return new
 
 
