@@ -261,7 +261,11 @@ def _lengths(a: SiteAssessment, system: UnitSystem) -> Section:
             Value(v.vehicle.id),
             Value(v.share, "share"),
             Value(v.required_length, "length", missing="never"),
-            Value(v.merge.length_for_reliability, "length", missing="beyond the search"),
+            Value(
+                v.merge.length_for_reliability,
+                "length",
+                missing="never near merge speed" if v.merge.eligible_station is None else "beyond the search",
+            ),
             Value(v.available_length, "length"),
             Value(v.deficit, "length"),
             Value(v.verdict, flag=v.verdict),
