@@ -304,7 +304,7 @@ def _check(args: argparse.Namespace, out: Console, err: Console) -> int:
         sys.stdout.write(documents[0].text)
     else:
         shown = study if args.exception and not isinstance(study, bool) else None
-        out.print(terminal.site_view(site_document(assessment, args.units, shown), details=args.details))
+        _print(out, terminal.site_view(site_document(assessment, args.units, shown), details=args.details))
     return EXIT_OK if assessment.verdict == "meets" else EXIT_SHORT
 
 
@@ -453,7 +453,7 @@ def _batch(args: argparse.Namespace, out: Console, err: Console) -> int:
         "--markdown": lambda: markdown.batch_markdown(results, summary, args.units),
     }
     write_all([Output(o.option, o.path, render[o.option]()) for o in asked], source_files(args.input))
-    out.print(terminal.batch_view(results, summary, args.units))
+    _print(out, terminal.batch_view(results, summary, args.units))
     if summary.unreadable:
         return EXIT_INPUT
     return EXIT_SHORT if summary.short else EXIT_OK
@@ -472,8 +472,19 @@ def _show(
     if args.json:
         sys.stdout.write(json_report.dumps(document()))
     else:
-        out.print(view())
+        _print(out, view())
     return EXIT_OK
+
+
+def _print(out: Console, view: RenderableType) -> None:
+    """A view on the terminal as rich lays it out; piped or redirected, the same text without the spaces that pad
+    its lines to the widest."""
+    if out.is_terminal:
+        out.print(view)
+        return
+    with out.capture() as captured:
+        out.print(view)
+    sys.stdout.write("".join(line.rstrip() + "\n" for line in captured.get().splitlines()))
 
 
 def _schema(args: argparse.Namespace, out: Console, err: Console) -> int:
