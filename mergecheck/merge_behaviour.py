@@ -87,6 +87,7 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 from dataclasses import dataclass
+from typing import Any
 
 import numpy as np
 from numpy.typing import NDArray
@@ -95,6 +96,7 @@ from .headways import CowanM3, Exponential, HeadwayModel
 
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.intp]
+Times = NDArray[np.floating[Any]]
 
 CELL = 0.2
 """Grid step of Eqs. (5)-(6) in stream time. [s]"""
@@ -297,8 +299,8 @@ def rule_along(
 
 @dataclass(frozen=True, slots=True)
 class _Streams:
-    """Headway models as rows of the family S(t) = alpha exp(-lambda (t - Delta)) beyond Delta, 1 below
-    (Cowan's M3; the negative exponential is alpha = 1, Delta = 0)."""
+    """Headway models, one per design vehicle, as columns (V, 1) of the family S(t) = alpha exp(-lambda (t - Delta))
+    beyond Delta, 1 below (Cowan's M3; the negative exponential is alpha = 1, Delta = 0)."""
 
     alpha: FloatArray
     decay: FloatArray
@@ -315,27 +317,26 @@ class _Streams:
             else:
                 raise TypeError(f"no closed form for headway model {type(m).__name__}")
         a = np.array(rows, dtype=float).reshape(-1, 3)
-        return cls(a[:, 0], a[:, 1], a[:, 2])
+        return cls(a[:, :1], a[:, 1:2], a[:, 2:])
 
-    def take(self, index: IntArray) -> _Streams:
-        return _Streams(self.alpha[index], self.decay[index], self.shift[index])
+    def take(self, keep: NDArray[np.bool_]) -> _Streams:
+        return _Streams(self.alpha[keep], self.decay[keep], self.shift[keep])
 
-    def _columns(self, t: FloatArray) -> tuple[FloatArray, FloatArray, FloatArray]:
-        shape = (-1,) + (1,) * (t.ndim - 1)
-        return self.alpha.reshape(shape), self.decay.reshape(shape), self.shift.reshape(shape)
+    def survival(self, t: Times) -> FloatArray:
+        """P(h > t), t broadcast against the (V, 1) columns. [-]"""
+        return np.asarray(
+            np.where(t < self.shift, 1.0, self.alpha * np.exp(-self.decay * np.maximum(t - self.shift, 0.0))),
+            dtype=float,
+        )
 
-    def cdf(self, t: FloatArray) -> FloatArray:
-        """P(h <= t), one row per stream. [-]"""
-        a, lam, d = self._columns(t)
-        return np.asarray(np.where(t < d, 0.0, 1.0 - a * np.exp(-lam * np.maximum(t - d, 0.0))), dtype=float)
+    def cdf(self, t: Times) -> FloatArray:
+        """P(h <= t). [-]"""
+        return 1.0 - self.survival(t)
 
-    def mean(self) -> FloatArray:
-        return np.asarray(self.shift + self.alpha / self.decay, dtype=float)
-
-    def survival_integral(self, t: FloatArray) -> FloatArray:
+    def survival_integral(self, t: Times) -> FloatArray:
         """Integral of P(h > r) from 0 to t. [s]"""
-        a, lam, d = self._columns(t)
         x = np.maximum(t, 0.0)
+        a, lam, d = self.alpha, self.decay, self.shift
         return np.asarray(np.minimum(x, d) - np.expm1(-lam * np.maximum(x - d, 0.0)) * a / lam, dtype=float)
 
 
@@ -363,31 +364,17 @@ def solve(
     Cell j of the headway axis holds lengths in ((j - 1/2) dt, (j + 1/2) dt], and a gap of that
     cell ends j cells after it came alongside; the refused share of each cell is cut exactly at
     t_f and t_req (closed forms of the M3 family), so that the grid only rounds when gaps end.
+    How the refused gaps still beside the drivers are carried from cell to cell is told in
+    :class:`_Pending`.
     """
-    v_count, nodes = critical_gaps.shape
-    row_of = np.repeat(np.arange(v_count), nodes)
-    tc = critical_gaps.reshape(-1).astype(float)
-    weight = weights.reshape(-1).astype(float)
-    family = _Streams.of(streams).take(row_of)
+    v_count = critical_gaps.shape[0]
+    state = _Pending.start(_Streams.of(streams), rules, critical_gaps.astype(float), weights.astype(float))
     n_cells = rules.share.shape[1]
-    top = np.maximum(
-        rules.share.max(axis=1)[row_of] * tc + rules.closing.max(axis=1)[row_of], rules.forced.max(axis=1)[row_of]
-    )
-    need = np.ceil(top / CELL + 0.5).astype(np.intp) + 2  # cells a refused gap of each row may span
-    order = np.argsort(need, kind="stable")
-    groups = [
-        _Group.start(order[part], need, family, rules, row_of, tc, weight, n_cells)
-        for part in np.array_split(order, 3)
-        if part.size
-    ]
     out = np.zeros((v_count, n_cells))
     last = np.full(v_count, n_cells - 1)
     running = np.ones(v_count, dtype=bool)
     for s in range(n_cells):
-        mixed = np.zeros(v_count)
-        for group in groups:
-            mixed += group.step(s, rules, v_count)
-        out[running, s] = np.clip(mixed[running], 0.0, 1.0)
+        out[state.vehicles, s] = np.clip(state.step(s, rules), 0.0, 1.0)
         finished = running & (s + 1 >= rules.cells)
         if stop_below is not None:
             finished |= running & (out[:, s] <= stop_below)
@@ -396,104 +383,204 @@ def solve(
             running &= ~finished
             if not running.any():
                 break
-            groups = [g for g in (group.keep(running) for group in groups) if g.rows.size]
-    cells = np.arange(out.shape[1])
+            state = state.keep(running)
+    cells = np.arange(n_cells)
     return np.asarray(
         np.where(cells[None, :] > last[:, None], out[np.arange(v_count), last][:, None], out), dtype=float
     )
 
 
-class _Group:
-    """Rows of :func:`solve` whose refused gaps span about the same number of cells, stepped together."""
+class _Pending:
+    """The refused gaps still beside the drivers of :func:`solve`, by the cell where each will end; one row per
+    design vehicle, one column per critical-gap node.
 
-    def __init__(
-        self, index: IntArray, width: int, family: _Streams, rows: IntArray, tc: FloatArray, weight: FloatArray,
-        fresh: FloatArray,
-    ) -> None:  # fmt: skip
-        self.index, self.width, self.family = index, width, family
-        self.rows, self.tc, self.weight, self.fresh = rows, tc, weight, fresh
-        self.upper = (np.arange(width) + 0.5) * CELL
-        self.top = family.cdf(np.broadcast_to(self.upper, (index.size, width)).copy())
+    A gap refused at cell s and ending j cells later carries the headway mass of its length cell,
+    d_j = P((j - 1/2) dt < h <= (j + 1/2) dt), times the probability of a fresh gap at s, g_s, and the
+    refused share of that cell under the rule of s. Cells wholly above the least headway Delta and below
+    the rule's cut at m (the cell holding t_f or t_req) are refused whole, and there the M3 family gives
+
+    .. math:: d_j = \\alpha\\, e^{-\\lambda ((j - 1/2) dt - \\Delta)} (1 - e^{-\\lambda dt}) = d_{j-1}\\, e^{-\\lambda dt}
+
+    so that the sum over past cells s of g_s d_{k - s} at cell k is one decaying sum, R_k = e^{-lambda dt}
+    R_{k-1} + (terms starting) - (terms ending), not a convolution over the width of the widest gap. Each
+    refusal then costs a constant number of writes: the start and end of its run of whole cells into
+    ``decaying``, and the cell holding Delta and the cell cut by the rule (the only ones not whole) into
+    ``ending``. Both are rings of ``span`` cells indexed by absolute cell. The arithmetic equals the
+    cell-by-cell convolution to rounding (tests/test_merge_behaviour.py).
+    """
+
+    __slots__ = (
+        "beside",
+        "decay_step",
+        "decaying",
+        "ending",
+        "family",
+        "first_whole",
+        "index",
+        "kept_step",
+        "run",
+        "shift_cell",
+        "span",
+        "tc",
+        "top0",
+        "top_shift",
+        "vehicles",
+        "weight",
+    )
+    _PER_VEHICLE = ("vehicles", "tc", "weight", "run", "beside", "decay_step", "kept_step", "top0", "shift_cell",
+                    "top_shift", "first_whole")  # fmt: skip
+
+    vehicles: IntArray
+    """(V',) the design vehicles still solved."""
+    tc: FloatArray
+    weight: FloatArray
+    """(V', K) critical-gap nodes and their weights."""
+    family: _Streams
+    ending: FloatArray
+    """(span, V', K) mass of refused gaps ending at each cell, written cell by cell."""
+    decaying: FloatArray
+    """(span, V', K) what enters (positive) and leaves (negative) the decaying sum at each cell."""
+    run: FloatArray
+    """(V', K) R_k: refused gaps of whole cells ending at the cell just judged."""
+    beside: FloatArray
+    """(V', K) P_not: refused gaps that end after the cell just judged."""
+    span: int
+    index: IntArray
+    """(V', K) flat column of each node in a ring's cell."""
+    decay_step: FloatArray
+    """(V', 1) exp(-lambda dt)."""
+    kept_step: FloatArray
+    """(V', 1) 1 - exp(-lambda dt)."""
+    top0: FloatArray
+    """(V', 1) P(h <= dt / 2): gaps that end in the cell where they came alongside."""
+    shift_cell: IntArray
+    """(V', 1) cell holding Delta."""
+    top_shift: FloatArray
+    """(V', 1) headway mass of that cell."""
+    first_whole: FloatArray
+    """(V', 1) d_j of the first cell above it."""
 
     @classmethod
-    def start(
-        cls, index: IntArray, need: IntArray, family: _Streams, rules: Rules, row_of: IntArray, tc: FloatArray,
-        weight: FloatArray, n_cells: int,
-    ) -> _Group:  # fmt: skip
-        """The group's state at x_a: the gap beside the driver is length-biased, the driver at a uniform
-        place in it; what matters is its length h and the part r still behind the driver."""
-        width = int(need[index].max())
-        fam = family.take(index)
-        c0, a0, f0, b0, p0 = _first_rule(rules, row_of[index], tc[index])
-        edges = np.broadcast_to(np.arange(width + 1) * CELL, (index.size, width + 1))
-        refused = _refused_lags(fam, edges, c0, a0, f0, b0, p0)  # refused first gaps with r below each edge
-        span = n_cells + width + 2
-        fresh = np.zeros((index.size, span))  # by absolute cell: nothing shifts as the solution advances
-        fresh[:, 1 : width + 1] = np.diff(refused, axis=1)  # r in [i dt, (i + 1) dt): next gap alongside at i + 1
-        return cls(index, width, fam, row_of[index], tc[index], weight[index], fresh)
+    def start(cls, family: _Streams, rules: Rules, tc: FloatArray, weight: FloatArray) -> _Pending:
+        """The state at x_a: the gap beside the driver is length-biased, the driver at a uniform place in it;
+        what matters is its length h and the part r still behind the driver."""
+        self = object.__new__(cls)
+        v_count, nodes = tc.shape
+        top = np.maximum(rules.share.max(axis=1)[:, None] * tc + rules.closing.max(axis=1)[:, None],
+                         rules.forced.max(axis=1)[:, None])  # fmt: skip
+        width = int(np.ceil(top.max() / CELL + 0.5)) + 2  # cells a refused gap may span
+        upper = (np.arange(width + 2) + 0.5) * CELL
+        self.shift_cell = np.searchsorted(upper, family.shift.ravel(), side="left").reshape(-1, 1)
+        self.span = max(width, int(self.shift_cell.max()) + 2) + 1  # every cell written lies within the ring
+        self.vehicles, self.tc, self.weight, self.family = np.arange(v_count), tc, weight, family
+        self.index = np.arange(v_count * nodes).reshape(v_count, nodes)
+        c0, a0, f0, b0, p0 = _first_rule(rules, tc)
+        reach = min(width, int(np.ceil(c0.max() / CELL)) + 2)  # a refused first gap has less than c0 behind
+        refused = _refused_lags(family, np.arange(reach + 1) * CELL, c0, a0, f0, b0, p0)  # (V, K, reach + 1)
+        self.ending = np.zeros((self.span, v_count, nodes))
+        self.ending[1 : reach + 1] = np.moveaxis(
+            np.diff(refused, axis=2), 2, 0
+        )  # r in [i dt, (i + 1) dt): ends at i + 1
+        self.decaying = np.zeros_like(self.ending)
+        self.beside = refused[:, :, -1] - refused[:, :, 0]
+        self.run = np.zeros_like(self.beside)
+        self.decay_step = np.exp(-family.decay * CELL)
+        self.kept_step = -np.expm1(-family.decay * CELL)
+        self.top0 = family.cdf(np.full_like(family.shift, 0.5 * CELL))
+        self.top_shift = family.cdf((self.shift_cell + 0.5) * CELL)
+        self.first_whole = family.survival((self.shift_cell + 0.5) * CELL) * self.kept_step
+        return self
 
-    def step(self, s: int, rules: Rules, v_count: int) -> FloatArray:
-        """Judge the gaps coming alongside at cell s; the weighted P_not of each row at s. (V,)
+    def step(self, s: int, rules: Rules) -> FloatArray:
+        """Judge the gaps coming alongside at cell s; the weighted P_not of each vehicle still solved at s. (V',)"""
+        fam, span, v = self.family, self.span, self.vehicles
+        slot = s % span
+        self.run *= self.decay_step
+        self.run += self.decaying[slot]
+        fresh = self.ending[slot] + self.run  # refused gaps ending at s: the next gap comes alongside
+        self.ending[slot] = 0.0
+        self.decaying[slot] = 0.0
+        c = rules.share[v, s, None] * self.tc + rules.closing[v, s, None]
+        p = rules.yielding[v, s, None]
+        cut = np.stack([np.minimum(rules.forced[v, s, None], c), c])  # t_f and t_req, (2, V', K)
+        below = fam.cdf(cut)
+        refused_share = np.stack([p, 1.0 - p])  # (2, V', 1): of gaps below t_f, and between t_f and t_req
+        in_cell0 = (refused_share * np.minimum(self.top0, below)).sum(axis=0)
+        g = fresh / np.maximum(1.0 - in_cell0, 1e-12)  # gaps of cell 0 end at once: the next comes in the same cell
+        self.beside -= fresh
+        end = rules.force_cell[v] == s
+        if end.any():
+            self._force(s, np.flatnonzero(end), rules.forced_lag[v[end], s])
+        self.beside += g * ((refused_share * below).sum(axis=0) - in_cell0)
+        mass = g * refused_share  # (2, V', K): refused share of the gaps below each cut
+        m = np.where(cut < fam.shift, 0, np.maximum(np.ceil(cut / CELL - 0.5), 0.0)).astype(np.intp)
+        j0 = self.shift_cell
+        at_shift = (mass * (m > j0)).sum(axis=0) * self.top_shift * (j0 >= 1)
+        whole = (mass * (m > j0 + 1)).sum(axis=0) * self.first_whole
+        tail = fam.survival((m - 0.5) * CELL)  # 1 - P(h <= the lower edge of cell m)
+        lower = np.where(m - 1 >= j0, 1.0 - tail, 0.0)
+        cut_cell = mass * np.maximum(below - lower, 0.0) * (m >= 1)
+        leaving = mass * tail * self.kept_step * (m > j0 + 1)
+        n = self.index.size
+        at_cut = (((s + m) % span) * n + self.index).ravel()
+        np.add.at(self.ending.reshape(-1), np.concatenate([(((s + j0) % span) * n + self.index).ravel(), at_cut]),
+                  np.concatenate([at_shift.ravel(), cut_cell.ravel()]))  # fmt: skip
+        np.add.at(self.decaying.reshape(-1), np.concatenate([(((s + j0 + 1) % span) * n + self.index).ravel(), at_cut]),
+                  np.concatenate([whole.ravel(), -leaving.ravel()]))  # fmt: skip
+        return np.asarray(np.einsum("vk,vk->v", self.beside, self.weight), dtype=float)
 
-        ``fresh`` holds, by absolute cell, the probability that a refused gap ends there (the next gap comes
-        alongside). Not having merged at s is being beside a refused gap that has not ended: the sum of
-        ``fresh`` over the cells after s, all within the window of the widest gap.
+    def _force(self, s: int, e: IntArray, lag: FloatArray) -> None:
+        """At the end of the lane (vehicles ``e``): refused gaps with enough left behind the driver are forced.
+
+        A gap ending j cells on has (j - 1/2, j + 1/2] cells left: the share of that beyond the forced lag
+        goes. Past ``reach`` every pending gap goes, so the decaying sum is written out cell by cell up to it.
         """
-        r, width = self.rows, self.width
-        c = rules.share[r, s] * self.tc + rules.closing[r, s]
-        f = np.minimum(rules.forced[r, s], c)
-        p = rules.yielding[r, s]
-        # refused gaps no longer than each cell's top: P(h <= min(top, f)) + (1 - p) P(min(top, f) < h <= min(top, c)),
-        # with P(h <= min(top, t)) = min(P(h <= top), P(h <= t)) as the distribution function is monotone
-        cum = np.minimum(self.top, self.family.cdf(f)[:, None])
-        cum *= p[:, None]
-        upto_c = np.minimum(self.top, self.family.cdf(c)[:, None])
-        upto_c *= (1 - p)[:, None]
-        cum += upto_c
-        cell = upto_c  # reused: the refused mass of each cell, the first cell's from 0
-        cell[:, 0] = cum[:, 0]
-        np.subtract(cum[:, 1:], cum[:, :-1], out=cell[:, 1:])
-        ahead = self.fresh[:, s : s + width + 1]
-        g = ahead[:, 0] / np.maximum(1.0 - cell[:, 0], 1e-12)
-        end = rules.force_cell[r] == s
-        if end.any():  # at the end of the lane: refused gaps with enough left behind the driver are forced
-            # a gap ending k cells on has (k - 1/2, k + 1/2] cells left: the share of that beyond the forced lag
-            beyond = np.clip(
-                np.arange(width + 1)[None, :] + 0.5 - rules.forced_lag[r[end], s][:, None] / CELL, 0.0, 1.0
-            )
-            beyond[:, 0] = 0.0
-            ahead[end] -= beyond * ahead[end]
-        ahead[:, 1:width] += g[:, None] * cell[:, 1:]
-        beside = ahead[:, 1:].sum(axis=1)  # refused gaps that end after s
-        return np.asarray(np.bincount(r, weights=self.weight * beside, minlength=v_count), dtype=float)
+        span = self.span
+        reach = min(span - 1, int(np.ceil(lag.max() / CELL + 0.5)) + 1)
+        j = np.arange(1, reach + 1)
+        at = (s + j) % span
+        q = self.decay_step[e, 0]
+        lags = j[:, None] - j[None, :]
+        power = np.where(lags >= 0, q[:, None, None] ** np.maximum(lags, 0)[None], 0.0)  # (E, J, J)
+        pending = self.ending[at][:, e] + (
+            (q[None, :] ** j[:, None])[:, :, None] * self.run[e][None]
+            + np.einsum("ejl,lek->jek", power, self.decaying[at][:, e])
+        )  # (J, E, K)
+        pending -= np.clip(j[:, None] + 0.5 - lag[None, :] / CELL, 0.0, 1.0)[:, :, None] * pending
+        self.ending[:, e] = 0.0
+        self.decaying[:, e] = 0.0
+        self.ending[at[:, None], e[None, :]] = pending
+        self.run[e] = 0.0
+        self.beside[e] = pending.sum(axis=0)
 
-    def keep(self, running: NDArray[np.bool_]) -> _Group:
-        """The group without the rows of finished design vehicles, once they are many (copying is dear)."""
-        keep = running[self.rows]
+    def keep(self, running: NDArray[np.bool_]) -> _Pending:
+        """Without the finished design vehicles, once they are many (copying is dear)."""
+        keep = running[self.vehicles]
         if keep.mean() >= 0.7:
             return self
-        new = object.__new__(_Group)
-        new.index, new.width, new.family = self.index[keep], self.width, self.family.take(np.flatnonzero(keep))
-        new.rows, new.tc, new.weight = self.rows[keep], self.tc[keep], self.weight[keep]
-        new.fresh, new.upper, new.top = self.fresh[keep], self.upper, self.top[keep]
+        new = object.__new__(_Pending)
+        for name in self._PER_VEHICLE:
+            setattr(new, name, getattr(self, name)[keep])
+        new.family, new.span = self.family.take(keep), self.span
+        new.ending = np.ascontiguousarray(self.ending[:, keep])
+        new.decaying = np.ascontiguousarray(self.decaying[:, keep])
+        new.index = np.arange(new.tc.size).reshape(new.tc.shape)
         return new
 
 
-def _first_rule(
-    rules: Rules, row: IntArray, tc: FloatArray
-) -> tuple[FloatArray, FloatArray, FloatArray, FloatArray, FloatArray]:
-    """At cell 0: gap needed c, lag needed a, forced gap f, forced lag b and yield probability p."""
-    c = rules.share[row, 0] * tc + rules.closing[row, 0]
-    a = rules.lag_part[row, 0] * tc + rules.closing[row, 0]
-    f = np.minimum(rules.forced[row, 0], c)
-    b = np.minimum(rules.forced_lag[row, 0], a)
-    return c, a, f, b, rules.yielding[row, 0]
+def _first_rule(rules: Rules, tc: FloatArray) -> tuple[FloatArray, FloatArray, FloatArray, FloatArray, FloatArray]:
+    """At cell 0: gap needed c, lag needed a, forced gap f, forced lag b and yield probability p. (V, K)"""
+    c = rules.share[:, :1] * tc + rules.closing[:, :1]
+    a = rules.lag_part[:, :1] * tc + rules.closing[:, :1]
+    f = np.minimum(rules.forced[:, :1], c)
+    b = np.minimum(rules.forced_lag[:, :1], a)
+    return c, a, f, b, np.broadcast_to(rules.yielding[:, :1], c.shape)
 
 
 def _refused_lags(
-    family: _Streams, e: FloatArray, c: FloatArray, a: FloatArray, f: FloatArray, b: FloatArray, p: FloatArray
+    family: _Streams, e: Times, c: FloatArray, a: FloatArray, f: FloatArray, b: FloatArray, p: FloatArray
 ) -> FloatArray:
-    """Probability that the first gap is refused and its part behind the driver is shorter than e. (rows, E)
+    """Probability that the first gap is refused and its part behind the driver is shorter than each of e. (V, K, E)
 
     Accepted are (h >= c and r >= a), or a yield (probability p) with h >= f and r >= b; with
     f <= c and b <= a, the refused density of r is
@@ -502,17 +589,22 @@ def _refused_lags(
 
     integrated here in closed form (S the headway survival function, mu the mean headway).
     """
+    fam = _Streams(family.alpha[:, :, None], family.decay[:, :, None], family.shift[:, :, None])
+    grid = e[None, None, :]
+    whole = fam.survival_integral(grid)
 
     def beyond(start: FloatArray, cut: FloatArray) -> FloatArray:
         """Integral of S(max(r, cut)) over r from start to e (0 where e <= start)."""
-        lo = np.minimum(start[:, None], e)
-        flat = np.minimum(e, np.maximum(cut[:, None], lo)) - lo
-        above = np.maximum(e, np.maximum(cut[:, None], lo))
-        tail = family.survival_integral(above) - family.survival_integral(np.maximum(cut[:, None], lo))
-        return np.asarray((1.0 - family.cdf(cut[:, None])) * flat + tail, dtype=float)
+        start, cut = start[:, :, None], cut[:, :, None]
+        z = np.maximum(cut, start)
+        part = fam.survival(cut) * (np.minimum(grid, z) - start)
+        part += np.where(grid > z, whole - fam.survival_integral(z), 0.0)
+        return np.asarray(np.where(grid > start, part, 0.0), dtype=float)
 
-    total = family.survival_integral(e) - beyond(a, c) - p[:, None] * (beyond(b, f) - beyond(a, c))
-    return np.asarray(np.maximum(total, 0.0) / family.mean()[:, None], dtype=float)
+    normal = beyond(a, c)
+    total = whole - normal - p[:, :, None] * (beyond(b, f) - normal)
+    mean = family.shift + family.alpha / family.decay
+    return np.asarray(np.maximum(total, 0.0) / mean[:, :, None], dtype=float)
 
 
 def simulate(

@@ -8,12 +8,25 @@ from typing import Any
 
 import numpy as np
 import pytest
+from numpy.typing import NDArray
 
 from mergecheck.assessment import SiteCheck, assess
 from mergecheck.critical_gaps import CriticalGap
-from mergecheck.headways import CowanM3
-from mergecheck.merge_behaviour import CELL, MergeBehaviour, Rules, rule_along, simulate, solve
+from mergecheck.headways import CowanM3, Exponential, HeadwayModel
+from mergecheck.merge_behaviour import (
+    CELL,
+    MergeBehaviour,
+    Rules,
+    _first_rule,
+    _refused_lags,
+    _Streams,
+    rule_along,
+    simulate,
+    solve,
+)
 from mergecheck.renewal import not_merged
+
+FloatArray = NDArray[np.float64]
 
 
 def positions(result: SiteCheck) -> tuple[float, float, float]:
@@ -57,6 +70,46 @@ def test_recursion_agrees_with_a_monte_carlo_of_the_same_behaviour(flow: float) 
     error = np.sqrt(simulated * (1 - simulated) / 100_000)
     assert np.all(np.abs(analytic - simulated) <= 4 * error + 0.003)
     assert rules.force_cell[0] < rules.cells[0]  # the lane end lies within the solved range: forcing was checked
+
+
+def _cell_by_cell(headways: HeadwayModel, tc: float, rules: Rules) -> FloatArray:
+    """Eqs. (5)-(6) for one driver node written plainly: the mass of every refused gap carried cell by cell to
+    the cell where it ends (the convolution that solve's decaying sum replaces)."""
+    n, width = int(rules.cells[0]), 150
+    below = 1.0 - headways.survival((np.arange(width) + 0.5) * CELL)  # P(h <= the top of each cell)
+    c, a, f, b, p = _first_rule(rules, np.array([[tc]]))
+    first = _refused_lags(_Streams.of([headways]), np.arange(width + 1) * CELL, c, a, f, b, p)[0, 0]
+    ending = np.zeros(n + 2 * width)
+    ending[1 : width + 1] = np.diff(first)
+    beside = np.zeros(n)
+    for s in range(n):
+        need = rules.share[0, s] * tc + rules.closing[0, s]
+        least, p_s = min(rules.forced[0, s], need), rules.yielding[0, s]
+        cdf = [1.0 - float(headways.survival(t)) for t in (least, need)]
+        refused = p_s * np.minimum(below, cdf[0]) + (1 - p_s) * np.minimum(below, cdf[1])
+        mass = np.diff(refused, prepend=0.0)
+        g = ending[s] / (1.0 - mass[0])
+        if s == rules.force_cell[0]:
+            left = np.arange(1, width + 1) + 0.5 - rules.forced_lag[0, s] / CELL
+            ending[s + 1 : s + width + 1] *= 1.0 - np.clip(left, 0.0, 1.0)
+        ending[s + 1 : s + width] += g * mass[1:]
+        beside[s] = ending[s + 1 :].sum()
+    return beside
+
+
+@pytest.mark.parametrize(
+    "headways", [CowanM3.tanner(1500 / 3600, 1.0), CowanM3(900 / 3600, 0.5, 0.6), Exponential(600 / 3600)], ids=repr
+)
+def test_the_decaying_sum_carries_refused_gaps_as_the_cell_by_cell_convolution(headways: HeadwayModel) -> None:
+    """solve's bookkeeping (one decaying sum over the runs of whole cells, written out cell by cell where the
+    lane ends for the forced merges) equals the plain convolution to rounding: least headways of 1, 0.5 and 0 s,
+    five driver nodes, yielding, pressure and forcing on."""
+    rules = _rules(MergeBehaviour(), headways.flow)
+    nodes, weights = CriticalGap(2.5, 0.6).nodes(5)
+    ours = solve([headways], nodes[None], weights[None], rules)[0, : rules.cells[0]]
+    plain = sum(w * _cell_by_cell(headways, tc, rules) for tc, w in zip(nodes, weights, strict=True))
+    assert 0 < rules.force_cell[0] < rules.cells[0]
+    np.testing.assert_allclose(ours, plain, rtol=0, atol=1e-12)
 
 
 def test_without_yielding_pressure_or_speed_adjustment_the_recursion_is_the_classic_renewal() -> None:
