@@ -84,15 +84,15 @@ that a lane never counts as long enough because drivers are forced in.
 
 from __future__ import annotations
 
-import math
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, fields
 from typing import Any
 
 import numpy as np
-from numpy.typing import NDArray
+from numpy.typing import ArrayLike, NDArray
 
 from .headways import CowanM3, Exponential, HeadwayModel
+from .padded_rows import interp_rows
 
 FloatArray = NDArray[np.float64]
 IntArray = NDArray[np.intp]
@@ -243,58 +243,111 @@ class Rules:
 _PER_CELL = ("station", "share", "closing", "forced", "yielding", "forced_lag", "lag_part")
 
 
-def search_rate(speed: FloatArray, stream_speed: float, behaviour: MergeBehaviour) -> tuple[FloatArray, FloatArray]:
-    """u(x) of Eq. (1) and d tau / dx, for a speed already held at merge speed. ([m/s], [s/m])"""
-    u = np.minimum(np.maximum(stream_speed - speed, behaviour.search_differential), 0.95 * stream_speed)
+def search_rate(speed: FloatArray, stream_speed: FloatArray, search: FloatArray) -> tuple[FloatArray, FloatArray]:
+    """u(x) of Eq. (1) and d tau / dx, for a speed already held at merge speed, with search differential
+    u_s. ([m/s], [s/m])"""
+    u = np.minimum(np.maximum(stream_speed - speed, search), 0.95 * stream_speed)
     return u, u / (stream_speed * (stream_speed - u))
 
 
-def rule_along(
-    station: FloatArray,
-    speed: FloatArray,
-    acceleration: FloatArray,
+def rules_along(
+    station: ArrayLike,
+    speed: ArrayLike,
+    acceleration: ArrayLike,
     *,
-    eligible: float,
-    until: float,
-    stream_speed: float,
-    merge_speed: float,
-    flow: float,
-    lane_end: float,
-    taper_end: float,
-    behaviour: MergeBehaviour,
+    eligible: ArrayLike,
+    until: ArrayLike,
+    stream_speed: ArrayLike,
+    merge_speed: ArrayLike,
+    flow: ArrayLike,
+    lane_end: ArrayLike,
+    taper_end: ArrayLike,
+    behaviour: MergeBehaviour | Sequence[MergeBehaviour],
     pressured: bool,
-) -> tuple[FloatArray, tuple[FloatArray, ...]]:
-    """One vehicle's tau(x) at its stations, and its acceptance rule per cell from x_a to ``until``.
+    cells: int | None = None,
+) -> tuple[FloatArray, Rules]:
+    """Each vehicle's tau(x) at its stations, and its acceptance rule per cell from x_a (``eligible``) to ``until``.
 
-    ``speed`` and ``acceleration`` are the vehicle's own along the path ([m/s], [m/s^2]; the
-    speed is held at ``merge_speed`` here), ``flow`` the adjacent lane's [veh/s]. ``pressured``
-    applies Eq. (3) with the real lane end and forced merges between ``lane_end`` and
-    ``taper_end``; otherwise m = 1 and the yield probability is Eq. (4) throughout (the
-    unhurried curve).
+    ``station``, ``speed`` and ``acceleration`` are rows (V, S), one per vehicle, padded past each
+    row's end by repeating its last sample (a single path may be given as one row): the vehicle's own
+    speed and acceleration along the path ([m], [m/s], [m/s^2]; the speed is held at ``merge_speed``
+    here). The rest are one value per row, or one for all: ``flow`` the adjacent lane's [veh/s], the
+    others in m and m/s. ``pressured`` applies Eq. (3) with the real lane end and forced merges between
+    ``lane_end`` and ``taper_end``; otherwise m = 1 and the yield probability is Eq. (4) throughout (the
+    unhurried curve). ``cells`` caps the cells of every rule.
+
+    Stream time is the trapezoid rule of Eq. (1) over each segment's part between x_a and ``until``
+    (the rate taken linear along the segment), plus the approach window W_a at x_a; the station where
+    each cell is judged is read back from it linearly.
     """
-    u, rate = search_rate(np.minimum(speed, merge_speed), stream_speed, behaviour)
-    past = station >= eligible
-    x = np.concatenate([[eligible], station[(station > eligible) & (station < until)], [until]])
-    r = np.interp(x, station, rate)
-    tau_x = behaviour.approach_window + np.concatenate([[0.0], np.cumsum(0.5 * (r[1:] + r[:-1]) * np.diff(x))])
-    tau_x, x = np.concatenate([[0.0], tau_x]), np.concatenate([[eligible], x])  # the approach: gaps judged at x_a
-    tau = np.where(past, np.interp(station, x[1:], tau_x[1:]), 0.0)
-    count = max(1, math.floor(tau_x[-1] / CELL) + 1)
-    at = np.interp(np.arange(count) * CELL, tau_x, x)
-    uc = np.interp(at, station, u)
-    ac = np.maximum(np.interp(at, station, acceleration), 0.0)
-    closing = uc**2 / (2 * stream_speed * (ac + behaviour.follower_easing))
-    forced_closing = uc**2 / (2 * stream_speed * (ac + behaviour.yield_braking))
-    forced = behaviour.forced_gap + forced_closing
-    forced_lag = behaviour.lag_share * behaviour.forced_gap + forced_closing
-    p = np.full(count, behaviour.yield_probability(flow, stream_speed))
-    share = np.ones(count)
+    x = np.atleast_2d(np.asarray(station, dtype=float))
+    v = np.atleast_2d(np.asarray(speed, dtype=float))
+    acc = np.atleast_2d(np.asarray(acceleration, dtype=float))
+    rows = x.shape[0]
+
+    def column(value: ArrayLike) -> FloatArray:
+        return np.broadcast_to(np.asarray(value, dtype=float), (rows,)).reshape(-1, 1)
+
+    e, end, vm = column(eligible), column(until), column(stream_speed)
+    b = _parameters(behaviour, rows)
+    u, rate = search_rate(np.minimum(v, column(merge_speed)), vm, b["search_differential"])
+    low, high = np.clip(x[:, :-1], e, end), np.clip(x[:, 1:], e, end)
+    length = np.diff(x, axis=1)
+    slope = np.divide(np.diff(rate, axis=1), length, out=np.zeros_like(length), where=length > 0)
+    part = 0.5 * (2 * rate[:, :-1] + slope * (low + high - 2 * x[:, :-1])) * (high - low)
+    window = b["approach_window"]
+    tau = np.concatenate([np.zeros((rows, 1)), np.cumsum(part, axis=1)], axis=1) + window
+    total = tau[:, -1]
+    tau = np.where(x >= e, tau, 0.0)
+    count = np.maximum(1, np.floor(total / CELL).astype(np.intp) + 1)
+    if cells is not None:
+        count = np.minimum(count, cells)
+    judged = (
+        np.minimum(np.arange(int(count.max()))[None, :], (count - 1)[:, None]) * CELL
+    )  # rows padded with their last cell
+    knots_tau = np.concatenate([np.zeros((rows, 1)), window, np.where(x >= e, tau, window)], axis=1)
+    knots_x = np.concatenate([e, e, np.clip(x, e, end)], axis=1)  # the approach: gaps judged at x_a
+    at = interp_rows(judged, knots_tau, knots_x)
+    uc = interp_rows(at, x, u)
+    ac = np.maximum(interp_rows(at, x, acc), 0.0)
+    closing = uc**2 / (2 * vm * (ac + b["follower_easing"]))
+    forced_closing = uc**2 / (2 * vm * (ac + b["yield_braking"]))
+    yielding = b["yield_at_capacity"] * np.minimum(1.0, column(flow) / vm / b["capacity_density"])
+    p = np.broadcast_to(yielding, at.shape)
+    share = np.ones_like(at)
+    within = np.arange(at.shape[1])[None, :] < count[:, None]
     if pressured:
-        to_end = np.clip((lane_end - at) / behaviour.pressure_distance, 0.0, 1.0)
-        share = behaviour.lane_end_share + (1 - behaviour.lane_end_share) * to_end
-        p = np.where((at >= lane_end) & (at <= taper_end), 1.0, p)
-    force = np.array([np.searchsorted(at, lane_end) if pressured else count + 1])
-    return tau, (at, share, closing, forced, p, forced_lag, behaviour.lag_share * share, force)
+        lane, taper = column(lane_end), column(taper_end)
+        share = b["lane_end_share"] + (1 - b["lane_end_share"]) * np.clip((lane - at) / b["pressure_distance"], 0, 1)
+        p = np.where((at >= lane) & (at <= taper), 1.0, p)
+        force = np.sum((at < lane) & within, axis=1)
+    else:
+        force = count + 1
+    rules = Rules(
+        station=at,
+        share=share,
+        closing=closing,
+        forced=b["forced_gap"] + forced_closing,
+        yielding=np.asarray(p, dtype=float),
+        forced_lag=b["lag_share"] * b["forced_gap"] + forced_closing,
+        lag_part=b["lag_share"] * share,
+        cells=count,
+        force_cell=np.asarray(force, dtype=np.intp),
+    )
+    return np.asarray(tau, dtype=float), rules
+
+
+def _parameters(behaviour: MergeBehaviour | Sequence[MergeBehaviour], rows: int) -> dict[str, FloatArray]:
+    """Each field of the merge behaviour as a column (V, 1)."""
+    given = [behaviour] * rows if isinstance(behaviour, MergeBehaviour) else list(behaviour)
+    if len(given) != rows:
+        raise ValueError(f"{len(given)} merge behaviours for {rows} rows")
+    names = [f.name for f in fields(MergeBehaviour)]
+    distinct = {id(b): b for b in given}  # most rows share one object
+    which = {key: i for i, key in enumerate(distinct)}
+    table = np.array([[getattr(b, n) for n in names] for b in distinct.values()], dtype=float)
+    index = np.array([which[id(b)] for b in given], dtype=np.intp)
+    return {n: table[index, k : k + 1] for k, n in enumerate(names)}
 
 
 @dataclass(frozen=True, slots=True)

@@ -20,11 +20,13 @@ from numpy.typing import NDArray
 
 from .critical_gaps import ACTIVE_NODES, CriticalGap
 from .headways import HeadwayModel, mean_wait
-from .merge_behaviour import CELL, MergeBehaviour, Rules, rule_along, solve
+from .merge_behaviour import CELL, MergeBehaviour, Rules, rules_along, solve
+from .padded_rows import gradient_rows, interp_rows
 from .renewal import FIRST_REACH, solve_renewals
 from .stream_time import stream_times
 
 FloatArray = NDArray[np.float64]
+IntArray = NDArray[np.intp]
 
 
 @functools.lru_cache(maxsize=64)
@@ -282,20 +284,6 @@ def merge_reliabilities(
     return results
 
 
-class _ActiveRow(NamedTuple):
-    """One vehicle's inputs to the active model: its stations, where a decision there is complete, and the
-    stream time and acceleration rule of its site curve and its unhurried curve."""
-
-    row: int
-    station: FloatArray
-    crossing: FloatArray
-    forcing_from: float
-    tau_site: FloatArray
-    site_rule: tuple[FloatArray, ...]
-    tau_free: FloatArray
-    free_rule: tuple[FloatArray, ...]
-
-
 @dataclass(frozen=True, slots=True)
 class _SiteCurve:
     rules: Rules
@@ -304,6 +292,11 @@ class _SiteCurve:
     site: FloatArray
     """Probability of having merged by each of ``decided`` (decision stations), to be read at ``crossing``."""
     tau: FloatArray
+
+
+FIRST_CELLS = 256
+"""Cells of stream time (51 s) over which the unhurried curve is first solved; rows short of the target by then
+are solved again in full."""
 
 
 def _active_curves(
@@ -316,58 +309,95 @@ def _active_curves(
 ) -> tuple[dict[int, tuple[FloatArray, int, FloatArray]], dict[int, _SiteCurve]]:
     """The active model (:mod:`mergecheck.merge_behaviour`) for the given rows: per row, the unhurried
     probability at its stations (shifted to where the lane change is half done) with the stations solved,
-    and the site curve."""
+    and the site curve. All rows are built and solved together."""
     if not rows:
         return {}, {}
-    built: list[_ActiveRow] = []
-    for r in rows:
-        s = settings[r]
-        b, flow = s.behaviour, _stream(s).flow
-        assert b is not None
-        x, keep = np.unique(station[r, : count[r]], return_index=True)
-        v = speed[r, : count[r]][keep]
-        a = v * np.gradient(v, x) if x.size > 1 else np.zeros_like(x)  # the vehicle's own acceleration a(x)
-        crossing = x + 0.5 * b.lane_change_time * np.minimum(v, s.merge_speed)
-        lane_end = s.lane_end if s.taper_start is None else s.taper_start
+    chosen = [settings[r] for r in rows]
+    behaviours = [s.behaviour for s in chosen if s.behaviour is not None]
+    streams = [_stream(s) for s in chosen]
+    index = np.array(rows)
+    x, v, n, xa = station[index], speed[index], count[index], x_a[index]
+    picked = np.arange(index.size)
 
-        # a vehicle still below the minimum merge speed at the end of the lane forces in there
-        forcing_from = lane_end if np.isnan(x_a[r]) else min(float(x_a[r]), lane_end)
+    def column(name: str) -> FloatArray:
+        return np.array([getattr(s, name) for s in chosen], dtype=float)
 
-        rule = functools.partial(
-            rule_along, x, v, a, stream_speed=s.stream_speed, merge_speed=s.merge_speed, flow=flow,
-            lane_end=lane_end, taper_end=s.taper_end, behaviour=b,
+    merge_speed, taper_end = column("merge_speed"), column("taper_end")
+    lane_end = np.array([s.lane_end if s.taper_start is None else s.taper_start for s in chosen])
+    change = np.array([b.lane_change_time for b in behaviours])
+    crossing = x + 0.5 * change[:, None] * np.minimum(v, merge_speed[:, None])  # where a decision is half done
+    never = np.isnan(xa)
+    forcing_from = np.where(never, lane_end, np.fmin(xa, lane_end))  # a vehicle still below the minimum merge
+    last_station = x[picked, n - 1]  # speed at the end of the lane forces in there
+    stream_speed, flow = column("stream_speed"), np.array([h.flow for h in streams])
+    acceleration = v * gradient_rows(v, x)  # the vehicle's own acceleration a(x)
+
+    def rules(on: IntArray, eligible: FloatArray, until: FloatArray, pressured: bool, cells: int | None = None
+              ) -> tuple[FloatArray, Rules]:  # fmt: skip
+        return rules_along(
+            x[on], v[on], acceleration[on], eligible=eligible[on], until=until[on], stream_speed=stream_speed[on],
+            merge_speed=merge_speed[on], flow=flow[on], lane_end=lane_end[on], taper_end=taper_end[on],
+            behaviour=[behaviours[i] for i in on], pressured=pressured, cells=cells,
         )  # fmt: skip
-        unhurried_from = float(x[-1]) if np.isnan(x_a[r]) else float(x_a[r])  # never eligible: nothing solved
-        at_site = rule(eligible=forcing_from, until=s.taper_end, pressured=True)
-        unhurried = rule(eligible=unhurried_from, until=float(x[-1]), pressured=False)
-        built.append(_ActiveRow(r, x, crossing, forcing_from, *at_site, *unhurried))
-    streams = [_stream(settings[r]) for r in rows]
-    nodes = [settings[r].critical_gap.nodes(ACTIVE_NODES) for r in rows]
-    size = max(n.size for n, _ in nodes)
-    gaps = np.array([np.pad(n, (0, size - n.size), constant_values=n[-1]) for n, _ in nodes])
-    weights = np.array([np.pad(w, (0, size - w.size)) for _, w in nodes])
-    site_rules = Rules.stack([b.site_rule for b in built])
-    free_rules = Rules.stack([b.free_rule for b in built])
-    target = np.array([1.0 - settings[r].reliability for r in rows])
+
+    tau_site, site_rules = rules(picked, forcing_from, taper_end, pressured=True)
+    gaps, weights = _active_nodes([s.critical_gap for s in chosen])
+    target = 1.0 - column("reliability")
     site_not = solve(streams, gaps, weights, site_rules)
-    free_not = solve(streams, gaps, weights, free_rules, stop_below=target)
-    free: dict[int, tuple[FloatArray, int, FloatArray]] = {}
-    site: dict[int, _SiteCurve] = {}
-    for i, (r, x, crossing, forcing_from, tau_site, _, tau_free, _) in enumerate(built):
-        full = station[r]
-        cells = np.arange(site_rules.cells[i]) * CELL
-        decided = np.where(x >= forcing_from, 1.0 - np.interp(tau_site, cells, site_not[i, : site_rules.cells[i]]), 0.0)
-        site[r] = _SiteCurve(site_rules.row(i), x, crossing, decided, np.interp(full, x, tau_site))
-        reached = np.flatnonzero(free_not[i, : free_rules.cells[i]] <= target[i])
-        last_cell = int(reached[0]) if reached.size else int(free_rules.cells[i]) - 1
-        solved_cells = np.arange(last_cell + 1) * CELL
-        eligible = ~np.isnan(x_a[r]) & (x >= x_a[r])
-        p = np.where(eligible, 1.0 - np.interp(tau_free, solved_cells, free_not[i, : last_cell + 1]), 0.0)
-        shifted = np.interp(full, crossing, p, left=0.0)
-        hit = np.flatnonzero(shifted[: count[r]] >= 1.0 - target[i]) if reached.size else np.array([], dtype=np.intp)
-        n = int(hit[0]) + 1 if hit.size else int(np.searchsorted(full[: count[r]], crossing[-1], side="right"))
-        free[r] = (shifted, max(1, min(n, int(count[r]))), np.interp(full, x, tau_free))
+    decided = np.where(x >= forcing_from[:, None], 1.0 - _on_cells(tau_site, site_not), 0.0)
+    # the unhurried curve, solved until the target is met: first within FIRST_CELLS cells, then in full for the
+    # rows that need more (a row's result does not depend on how far the others are solved)
+    unhurried_from = np.where(never, last_station, xa)  # never eligible: nothing solved
+    tau_free, free_p = np.zeros_like(x), np.zeros_like(x)
+    reached = np.zeros(x.shape[0], dtype=bool)
+    pending = picked
+    for cells in (FIRST_CELLS, None):
+        tau_p, free_rules = rules(pending, unhurried_from, last_station, pressured=False, cells=cells)
+        not_merged = solve([streams[i] for i in pending], gaps[pending], weights[pending], free_rules,
+                           stop_below=target[pending])  # fmt: skip
+        within = np.arange(not_merged.shape[1])[None, :] < free_rules.cells[:, None]
+        met = np.any((not_merged <= target[pending, None]) & within, axis=1)  # beyond it a row holds its value
+        whole = free_rules.cells < (np.iinfo(np.intp).max if cells is None else cells)  # not cut short
+        done = met | whole | (cells is None)
+        tau_free[pending[done]], reached[pending[done]] = tau_p[done], met[done]
+        free_p[pending[done]] = 1.0 - _on_cells(tau_p[done], not_merged[done])
+        pending = pending[~done]
+        if not pending.size:
+            break
+    p = np.where(~never[:, None] & (x >= xa[:, None]), free_p, 0.0)
+    shifted = interp_rows(x, crossing, p, left=0.0)
+    real = np.arange(x.shape[1])[None, :] < n[:, None]
+    hit = (shifted >= 1.0 - target[:, None]) & real & reached[:, None]
+    beyond = np.sum((x <= crossing[picked, n - 1][:, None]) & real, axis=1)
+    solved = np.clip(np.where(hit.any(axis=1), np.argmax(hit, axis=1) + 1, beyond), 1, n)
+    free = {r: (shifted[i], int(solved[i]), tau_free[i]) for i, r in enumerate(rows)}
+    site = {
+        r: _SiteCurve(site_rules.row(i), x[i, : n[i]], crossing[i, : n[i]], decided[i, : n[i]], tau_site[i])
+        for i, r in enumerate(rows)
+    }
     return free, site
+
+
+def _on_cells(tau: FloatArray, values: FloatArray) -> FloatArray:
+    """Each row's values on the cells of stream time (cell i at i * CELL), linear between cells and held beyond
+    the last, at the row's own stream times tau. (V, S)"""
+    last = values.shape[1] - 1
+    place = np.clip(tau / CELL, 0.0, last)
+    low = np.minimum(np.floor(place).astype(np.intp), max(last - 1, 0))
+    high = np.minimum(low + 1, last)
+    below, above = np.take_along_axis(values, low, axis=1), np.take_along_axis(values, high, axis=1)
+    return np.asarray(below + (place - low) * (above - below), dtype=float)
+
+
+def _active_nodes(gaps: Sequence[CriticalGap]) -> tuple[FloatArray, FloatArray]:
+    """Critical-gap nodes and weights of the active model, one row per vehicle (V, K); a distribution with fewer
+    nodes (a fixed gap) repeats its last node at weight 0."""
+    distinct = {g: g.nodes(ACTIVE_NODES) for g in dict.fromkeys(gaps)}
+    size = max(t.size for t, _ in distinct.values())
+    padded = {
+        g: (np.pad(t, (0, size - t.size), mode="edge"), np.pad(w, (0, size - w.size))) for g, (t, w) in distinct.items()
+    }
+    return np.array([padded[g][0] for g in gaps]), np.array([padded[g][1] for g in gaps])
 
 
 def _stream(setting: MergeSetting) -> HeadwayModel:

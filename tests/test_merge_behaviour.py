@@ -20,7 +20,7 @@ from mergecheck.merge_behaviour import (
     _first_rule,
     _refused_lags,
     _Streams,
-    rule_along,
+    rules_along,
     simulate,
     solve,
 )
@@ -47,11 +47,11 @@ def _rules(behaviour: MergeBehaviour, flow: float, pressured: bool = True) -> Ru
     """A car accelerating at 0.6 m/s^2 from 70 km/h beside a 100 km/h stream; 250 m lane, 90 m taper."""
     x = np.arange(0.0, 3000.0, 5.0)
     v = np.sqrt((70 / 3.6) ** 2 + 2 * 0.6 * x)
-    _, rule = rule_along(
+    _, rules = rules_along(
         x, v, np.full_like(x, 0.6), eligible=0.0, until=340.0, stream_speed=100 / 3.6, merge_speed=92 / 3.6,
         flow=flow, lane_end=250.0, taper_end=340.0, behaviour=behaviour, pressured=pressured,
     )  # fmt: skip
-    return Rules.stack([rule])
+    return rules
 
 
 @pytest.mark.parametrize("flow", [600, 1500, 2000])
@@ -191,10 +191,10 @@ def test_a_vehicle_slower_than_the_stream_needs_a_longer_gap() -> None:
 
     def gap_needed(speed_kmh: float, acceleration: float) -> float:
         v = np.full(2, speed_kmh / 3.6)
-        _, rule = rule_along(x, v, np.full(2, acceleration), eligible=0.0, until=10.0, stream_speed=100 / 3.6,
-                             merge_speed=100 / 3.6, flow=0.3, lane_end=900.0, taper_end=990.0, behaviour=b,
-                             pressured=False)  # fmt: skip
-        return float(rule[2][0])  # the closing term; t_c is the same for both
+        _, rules = rules_along(x, v, np.full(2, acceleration), eligible=0.0, until=10.0, stream_speed=100 / 3.6,
+                               merge_speed=100 / 3.6, flow=0.3, lane_end=900.0, taper_end=990.0, behaviour=b,
+                               pressured=False)  # fmt: skip
+        return float(rules.closing[0, 0])  # the closing term; t_c is the same for both
 
     assert gap_needed(80, 0.6) > gap_needed(92, 0.6) > 0
     assert gap_needed(80, 0.1) > 1.5 * gap_needed(80, 0.6)
@@ -278,3 +278,21 @@ def test_a_large_monte_carlo_runs_in_batches_and_agrees(make_site: Any, monkeypa
     assert first.monte_carlo is not None
     tolerance = 4 * first.monte_carlo.standard_error + 0.006
     assert first.monte_carlo.by_lane_end == pytest.approx(first.merge.by_lane_end, abs=tolerance)
+
+
+def test_solving_the_unhurried_curve_in_two_horizons_changes_nothing(
+    make_site: Any, monkeypatch: pytest.MonkeyPatch
+) -> None:
+    """The unhurried curve is first solved over FIRST_CELLS cells and again in full for the rows still short of
+    the target: with a first horizon of 10 cells (every row solved twice) the figures are the same."""
+    site = make_site(
+        mainline__adjacent_lane_flow="1700 veh/h",
+        ramp__vehicles={"passenger-car": 0.6, "single-unit-truck": 0.2, "semitrailer-fleet": 0.2},
+        geometry__profile=[{"from": "0 m", "grade": "-1 %"}],
+    )
+    once = assess(site)
+    monkeypatch.setattr("mergecheck.merge_reliability.FIRST_CELLS", 10)
+    twice = assess(site)
+    for a, b in zip(once.vehicles, twice.vehicles, strict=True):
+        assert a.merge == b.merge
+        assert a.merge.length_for_reliability is not None
