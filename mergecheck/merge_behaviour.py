@@ -289,6 +289,9 @@ def rules_along(
         return np.broadcast_to(np.asarray(value, dtype=float), (rows,)).reshape(-1, 1)
 
     e, end, vm = column(eligible), column(until), column(stream_speed)
+    width = x.shape[1]
+    reach = min(width, int(np.max(np.sum(x < end, axis=1), initial=0)) + 1)  # to each row's first station past `until`
+    x, v, acc = x[:, :reach], v[:, :reach], acc[:, :reach]
     b = _parameters(behaviour, rows)
     u, rate = search_rate(np.minimum(v, column(merge_speed)), vm, b["search_differential"])
     low, high = np.clip(x[:, :-1], e, end), np.clip(x[:, 1:], e, end)
@@ -305,11 +308,13 @@ def rules_along(
     judged = (
         np.minimum(np.arange(int(count.max()))[None, :], (count - 1)[:, None]) * CELL
     )  # rows padded with their last cell
-    knots_tau = np.concatenate([np.zeros((rows, 1)), window, np.where(x >= e, tau, window)], axis=1)
-    knots_x = np.concatenate([e, e, np.clip(x, e, end)], axis=1)  # the approach: gaps judged at x_a
+    past = np.where(x >= e, tau, window)
+    used = min(reach, int(np.max(np.sum(past < judged[:, -1:], axis=1))) + 1)  # to the station of the last cell
+    knots_tau = np.concatenate([np.zeros((rows, 1)), window, past[:, :used]], axis=1)
+    knots_x = np.concatenate([e, e, np.clip(x[:, :used], e, end)], axis=1)  # the approach: gaps judged at x_a
     at = interp_rows(judged, knots_tau, knots_x)
-    uc = interp_rows(at, x, u)
-    ac = np.maximum(interp_rows(at, x, acc), 0.0)
+    uc = interp_rows(at, x[:, :used], u[:, :used])
+    ac = np.maximum(interp_rows(at, x[:, :used], acc[:, :used]), 0.0)
     closing = uc**2 / (2 * vm * (ac + b["follower_easing"]))
     forced_closing = uc**2 / (2 * vm * (ac + b["yield_braking"]))
     yielding = b["yield_at_capacity"] * np.minimum(1.0, column(flow) / vm / b["capacity_density"])
@@ -334,7 +339,7 @@ def rules_along(
         cells=count,
         force_cell=np.asarray(force, dtype=np.intp),
     )
-    return np.asarray(tau, dtype=float), rules
+    return np.pad(tau, ((0, 0), (0, width - reach)), mode="edge"), rules  # past `until` tau holds
 
 
 def _parameters(behaviour: MergeBehaviour | Sequence[MergeBehaviour], rows: int) -> dict[str, FloatArray]:

@@ -33,12 +33,15 @@ def gradient_rows(f: FloatArray, x: FloatArray) -> FloatArray:
     rows, width = x.shape
     fresh = np.ones_like(x, dtype=bool)
     fresh[:, 1:] = x[:, 1:] != x[:, :-1]
-    order = np.argsort(~fresh, axis=1, kind="stable")  # distinct samples first, in their order
     distinct = fresh.sum(axis=1)
     last = (distinct - 1)[:, None]
     j = np.minimum(np.arange(width)[None, :], last)  # past its distinct samples a row repeats its last
-    xs = np.take_along_axis(x, np.take_along_axis(order, j, axis=1), axis=1)
-    fs = np.take_along_axis(f, np.take_along_axis(order, j, axis=1), axis=1)
+    if np.array_equal(fresh, np.arange(width)[None, :] <= last):  # repeats only in the padding: rows as they are
+        xs, fs = x, f
+    else:
+        order = np.argsort(~fresh, axis=1, kind="stable")  # distinct samples first, in their order
+        xs = np.take_along_axis(x, np.take_along_axis(order, j, axis=1), axis=1)
+        fs = np.take_along_axis(f, np.take_along_axis(order, j, axis=1), axis=1)
     out = np.zeros_like(x)
     if width > 1:
         h = np.diff(xs, axis=1)
