@@ -19,13 +19,13 @@ factor (not extrapolated), and no policy value is given for it.
 
 from __future__ import annotations
 
+import bisect
 import functools
 import importlib.resources
 import itertools
 from dataclasses import dataclass
 from typing import Annotated
 
-import numpy as np
 from pydantic import BaseModel, ConfigDict, Field, model_validator
 
 from .inputs import parse_yaml, read_text, validated
@@ -230,9 +230,9 @@ def _bracket(values: tuple[float, ...], x: float) -> tuple[int, int, float] | No
         return None
     if len(values) == 1:
         return (0, 0, 0.0)
-    j = int(np.clip(np.searchsorted(values, x, side="right") - 1, 0, len(values) - 2))
+    j = min(max(bisect.bisect_right(values, x) - 1, 0), len(values) - 2)
     w = (x - values[j]) / (values[j + 1] - values[j])
-    return (j, j + 1, float(np.clip(w, 0.0, 1.0)))
+    return (j, j + 1, min(max(w, 0.0), 1.0))
 
 
 def _bilinear(

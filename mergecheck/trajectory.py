@@ -199,36 +199,45 @@ def speeds_at(trajectories: Sequence[Trajectory], stations: Sequence[FloatArray]
 
 
 def _evaluate(trajectories: Sequence[Trajectory], stations: Sequence[FloatArray], component: int) -> list[FloatArray]:
-    """u = v^2/2 (component 0) or t (component 1) of each trajectory at its stations, on its continuous extension."""
+    """u = v^2/2 (component 0) or t (component 1) of each trajectory at its stations, on its continuous extension.
+
+    Every trajectory's steps are searched at once: laid end to end, each moved clear of the one before (the
+    shift costs about 1e-16 of their total length in where a station falls, and a station that lands on the
+    neighbouring step reads the same continuous extension there).
+    """
+    sizes = np.array([s.size for s in stations], dtype=np.intp)
+    x = np.concatenate([np.asarray(s, dtype=float).reshape(-1) for s in stations]) if stations else np.zeros(0)
+    owner = np.repeat(np.arange(len(trajectories)), sizes)
+    start = np.array([t.start for t in trajectories])[owner]
+    end = np.array([t.end for t in trajectories])[owner]
+    if np.any(x < start - 1e-9) or np.any(x > end + 1e-9):
+        raise ValueError("station outside the integrated range")
     pieces = [t.pieces for t in trajectories]
-    counts = [p.x.size for p in pieces]
-    offsets = np.cumsum([0, *counts[:-1]])
-    x = np.concatenate(stations)
-    sizes = [s.size for s in stations]
-    bounds = np.cumsum([0, *sizes])
-    for t, lo, hi in zip(trajectories, bounds[:-1], bounds[1:], strict=True):
-        if hi > lo and (x[lo:hi].min() < t.start - 1e-9 or x[lo:hi].max() > t.end + 1e-9):
-            raise ValueError("station outside the integrated range")
+    counts = np.array([p.x.size for p in pieces], dtype=np.intp)
     value = np.zeros_like(x)
-    if sum(counts):
-        i = np.concatenate(
-            [o + np.clip(np.searchsorted(p.x, s, side="right") - 1, 0, max(c - 1, 0)) for p, s, o, c in
-             zip(pieces, stations, offsets, counts, strict=True)]
-        )  # fmt: skip
-        i = np.minimum(i, sum(counts) - 1)
+    if counts.sum():
         step_x, h = np.concatenate([p.x for p in pieces]), np.concatenate([p.h for p in pieces])
         y = np.concatenate([p.y[component] for p in pieces])
         q = np.concatenate([p.q[:, component] for p in pieces], axis=1)
+        first = np.cumsum(counts) - counts
+        lowest = np.array(
+            [min(t.start, p.x[0]) if p.x.size else t.start for t, p in zip(trajectories, pieces, strict=True)]
+        )
+        highest = np.array([t.end for t in trajectories])
+        clear = np.arange(len(trajectories)) * (float(np.max(highest - lowest)) + 1.0) - lowest
+        found = np.searchsorted(step_x + np.repeat(clear, counts), x + clear[owner], side="right") - 1
+        i = np.clip(found, first[owner], first[owner] + np.maximum(counts[owner] - 1, 0))
+        i = np.minimum(i, step_x.size - 1)
         value = _dense(y[i], h[i], q[:, i], (x - step_x[i]) / h[i])
-    for t, count, lo, hi in zip(trajectories, counts, bounds[:-1], bounds[1:], strict=True):
-        u0 = 0.5 * t.initial_speed**2
-        if count == 0:  # no step taken: the vehicle never left its start
-            value[lo:hi] = u0 if component == 0 else 0.0
-        if t.launch is not None:  # the first centimetre at constant acceleration: u = u0 + a (x - x0), t = (v - v0) / a
-            first = lo + np.flatnonzero(x[lo:hi] < t.start + _START_STEP)
-            u_launch = u0 + t.launch * (x[first] - t.start)
-            value[first] = u_launch if component == 0 else (np.sqrt(2.0 * u_launch) - t.initial_speed) / t.launch
-    return np.split(value, bounds[1:-1])
+    v0 = np.array([t.initial_speed for t in trajectories])[owner]
+    u0 = 0.5 * v0**2
+    still = counts[owner] == 0  # no step taken: the vehicle never left its start
+    value[still] = u0[still] if component == 0 else 0.0
+    launch = np.array([np.nan if t.launch is None else t.launch for t in trajectories])[owner]
+    first_cm = ~np.isnan(launch) & (x < start + _START_STEP)  # the first centimetre at constant acceleration:
+    u_launch = u0[first_cm] + launch[first_cm] * (x[first_cm] - start[first_cm])  # u = u0 + a (x - x0)
+    value[first_cm] = u_launch if component == 0 else (np.sqrt(2.0 * u_launch) - v0[first_cm]) / launch[first_cm]
+    return np.split(value, np.cumsum(sizes)[:-1])
 
 
 @dataclass(frozen=True, slots=True)
