@@ -73,20 +73,35 @@ def check_outputs(outputs: Sequence[Output], inputs: Iterable[str | Path] = ()) 
     Call it before the work, so that a bad path is refused at once, and again (by :func:`write_all`) at
     the end.
     """
-    read = {Path(p).resolve(strict=False) for p in inputs}
+    read: set[tuple[int, int]] | None = None  # the inputs' files, looked up only if an output already exists
     seen: dict[Path, str] = {}
     targets = []
     for output in outputs:
         if output.path == "-":
             continue
         target = _target(output.option, output.path)
-        if target in read:
-            raise InputError("command line", output.option, f"{output.path} is an input of this run: not overwritten")
+        if target.exists():
+            read = _identities(inputs) if read is None else read
+            status = target.stat()
+            if (status.st_dev, status.st_ino) in read:
+                raise InputError(
+                    "command line", output.option, f"{output.path} is an input of this run: not overwritten"
+                )
         if target in seen:
             raise InputError("command line", output.option, f"{output.path} is also the output of {seen[target]}")
         seen[target] = output.option
         targets.append(target)
     return targets
+
+
+def _identities(paths: Iterable[str | Path]) -> set[tuple[int, int]]:
+    """Device and inode of each file that exists (symbolic links followed): one file under any name."""
+    found = set()
+    for path in paths:
+        with contextlib.suppress(OSError):
+            status = os.stat(path)
+            found.add((status.st_dev, status.st_ino))
+    return found
 
 
 def write_all(outputs: Sequence[Output], inputs: Iterable[str | Path] = ()) -> None:
