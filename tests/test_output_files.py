@@ -99,3 +99,14 @@ def test_a_batch_never_writes_over_a_site_it_reads(cli: Any, repo: Path, tmp_pat
     (folder / "a.yaml").write_text((repo / "examples" / "willowmere-level.yaml").read_text())
     run = cli("batch", folder, "--json", folder / "a.yaml")
     assert run.code == 2 and "is an input of this run" in run.stderr
+
+
+def test_an_input_reached_by_another_name_is_not_an_output(cli: Any, site: Path, tmp_path: Path) -> None:
+    """A symbolic link or a hard link to the site file names the same file: refused like the file itself."""
+    before = site.read_text()
+    soft, hard = tmp_path / "soft.json", tmp_path / "hard.json"
+    soft.symlink_to(site)
+    os.link(site, hard)
+    for name in (soft, hard):
+        run = cli("check", site, "--json", name)
+        assert run.code == 2 and "is an input of this run" in run.stderr and site.read_text() == before
