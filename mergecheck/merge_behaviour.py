@@ -532,15 +532,18 @@ class _Pending:
         self.span = max(width, int(self.shift_cell.max()) + 2) + 1  # every cell written lies within the ring
         self.vehicles, self.tc, self.weight, self.family = np.arange(v_count), tc, weight, family
         self.index = np.arange(v_count * nodes).reshape(v_count, nodes)
-        c0, a0, f0, b0, p0 = _first_rule(rules, tc)
-        reach = min(width, int(np.ceil(c0.max() / CELL)) + 2)  # a refused first gap has less than c0 behind
-        refused = _refused_lags(family, np.arange(reach + 1) * CELL, c0, a0, f0, b0, p0)  # (V, K, reach + 1)
         self.ending = np.zeros((self.span, v_count, nodes))
-        self.ending[1 : reach + 1] = np.moveaxis(
-            np.diff(refused, axis=2), 2, 0
-        )  # r in [i dt, (i + 1) dt): ends at i + 1
+        self.beside = np.zeros((v_count, nodes))
+        first = _first_rule(rules, tc)
+        reach = np.minimum(width, np.ceil(first[0].max(axis=1) / CELL).astype(np.intp) + 2)  # a refused first gap
+        order = np.argsort(reach, kind="stable")  # has less than c0 behind the driver: rows of like reach together
+        for rows in np.array_split(order, max(1, min(3, v_count))):
+            far = int(reach[rows].max())
+            part = _Streams(family.alpha[rows], family.decay[rows], family.shift[rows])
+            refused = _refused_lags(part, np.arange(far + 1) * CELL, *(a[rows] for a in first))  # (V, K, far + 1)
+            self.ending[1 : far + 1, rows] = np.moveaxis(np.diff(refused, axis=2), 2, 0)  # r in [i dt, (i + 1) dt):
+            self.beside[rows] = refused[:, :, -1] - refused[:, :, 0]  # the next gap comes alongside at i + 1
         self.decaying = np.zeros_like(self.ending)
-        self.beside = refused[:, :, -1] - refused[:, :, 0]
         self.run = np.zeros_like(self.beside)
         self.decay_step = np.exp(-family.decay * CELL)
         self.kept_step = -np.expm1(-family.decay * CELL)

@@ -228,7 +228,8 @@ def _evaluate(trajectories: Sequence[Trajectory], stations: Sequence[FloatArray]
         found = np.searchsorted(step_x + np.repeat(clear, counts), x + clear[owner], side="right") - 1
         i = np.clip(found, first[owner], first[owner] + np.maximum(counts[owner] - 1, 0))
         i = np.minimum(i, step_x.size - 1)
-        value = _dense(y[i], h[i], q[:, i], (x - step_x[i]) / h[i])
+        h_i = np.take(h, i)
+        value = _dense(np.take(y, i), h_i, np.take(q, i, axis=1), (x - np.take(step_x, i)) / h_i)
     v0 = np.array([t.initial_speed for t in trajectories])[owner]
     u0 = 0.5 * v0**2
     still = counts[owner] == 0  # no step taken: the vehicle never left its start
