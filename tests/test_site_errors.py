@@ -12,6 +12,7 @@ import pytest
 import yaml
 
 from mergecheck.errors import InputError
+from mergecheck.inputs import _CONTROL, _is_control, parse_yaml
 
 BASE: dict[str, Any] = yaml.safe_load(
     """
@@ -374,3 +375,25 @@ def test_a_quantity_option_may_be_given_unquoted(cli: Any, repo: Path) -> None:
     assert unquoted.code == 0 and unquoted.json() == quoted.json()
     files = cli("check", repo / "examples" / "willowmere-level.yaml", "--html", "x", "y")
     assert files.code == 2 and "unrecognized arguments: y" in files.stderr  # a file name is never joined
+
+
+@pytest.mark.parametrize(
+    ("written", "rule"),
+    [
+        ('"Ave\\e[2J"', "holds the control character U+001B"),
+        ('"Ave\\x9b"', "holds the control character U+009B"),
+        ('"Ave\\u202e"', "holds the control character U+202E"),
+        ('"Ave\\N"', "holds the control character U+0085"),
+        ("Ave\u202e", "holds the control character U+202E"),
+        ("Ave\x1b[2J", "not valid YAML"),  # the YAML reader refuses a raw escape itself
+    ],
+)
+def test_a_control_character_is_refused_whether_written_raw_or_as_a_yaml_escape(written: str, rule: str) -> None:
+    """Files without a backslash or a control character skip the walk over every loaded string: both ways of
+    writing one must still be caught (YAML double-quoted escapes: \\e, \\x, \\u, \\N for U+0085)."""
+    with pytest.raises(InputError, match=re.escape(rule)):
+        parse_yaml(f"name: {written}\n", "site.yaml")
+
+
+def test_the_control_character_pattern_is_the_character_rule() -> None:
+    assert all(_is_control(c) == bool(_CONTROL.fullmatch(c)) for c in map(chr, range(0x110000)))
