@@ -327,8 +327,9 @@ def _active_curves(
     change = np.array([b.lane_change_time for b in behaviours])
     crossing = x + 0.5 * change[:, None] * np.minimum(v, merge_speed[:, None])  # where a decision is half done
     never = np.isnan(xa)
-    forcing_from = np.where(never, lane_end, np.fmin(xa, lane_end))  # a vehicle still below the minimum merge
-    last_station = x[picked, n - 1]  # speed at the end of the lane forces in there
+    # a vehicle still below the minimum merge speed at the end of the lane forces in there
+    forcing_from = np.where(never, lane_end, np.fmin(xa, lane_end))
+    last_station = x[picked, n - 1]
     stream_speed, flow = column("stream_speed"), np.array([h.flow for h in streams])
     acceleration = v * gradient_rows(v, x)  # the vehicle's own acceleration a(x)
 
