@@ -253,6 +253,8 @@ def merge_reliabilities(
     by_lane_end = _at(station, probability, solved, lane_end)
     by_taper_end = _at(station, probability, solved, taper_end)
     tau_lane_end = _at(station, tau, solved, lane_end)
+    active_rows = np.isin(np.arange(len(settings)), list(checks))
+    tau_taper_end = np.where(active_rows, _at(station, tau, solved, taper_end), tau_taper_end)  # the active model's tau
     results = []
     for r, setting in enumerate(settings):
         n = solved[r]

@@ -296,3 +296,16 @@ def test_solving_the_unhurried_curve_in_two_horizons_changes_nothing(
     for a, b in zip(once.vehicles, twice.vehicles, strict=True):
         assert a.merge == b.merge
         assert a.merge.length_for_reliability is not None
+
+
+def test_stream_times_at_the_lane_and_taper_ends_are_read_from_the_site_curve(make_site: Any) -> None:
+    """Both figures are tau of Eq. (1) on the active model's site curve (before, the taper end's came from the
+    classic model's stream time: 0 for a vehicle never within the minimum merge speed)."""
+    result = assess(make_site(ramp__vehicles={"passenger-car": 0.8, "semitrailer-design": 0.2},
+                              geometry__profile=[{"from": "0 m", "grade": "4 %"}]))  # fmt: skip
+    for vehicle, lines in zip(result.vehicles, result.curves, strict=True):
+        curve, s = lines.merge.site, result.site
+        for x, tau in ((s.taper_start, vehicle.merge.stream_time_at_lane_end),
+                       (s.taper_end, vehicle.merge.stream_time_at_taper_end)):  # fmt: skip
+            assert tau == pytest.approx(float(np.interp(x, curve.station, curve.stream_time)), abs=1e-9)
+        assert vehicle.merge.stream_time_at_taper_end > vehicle.merge.stream_time_at_lane_end > 0
