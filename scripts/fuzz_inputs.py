@@ -336,17 +336,20 @@ def queue_case(rng: random.Random) -> Case:
 def landxml_case(rng: random.Random) -> Case:
     """A LandXML profile mutated as text (byte and line mutations) or with a station changed."""
     text = (REPO / "tests" / "data" / "landxml" / "ramp-b.xml").read_text()
+    kept = True  # the alignments as written: Ramp B runs from 900 to 1500 m
     if rng.random() < 0.4:
         data = text.replace("1100 106.000", f"{rng.choice(['abc', '-1e309', '1100', '1500 1', 'nan 3', '900 1'])}")
         refuse, note = True, "a PVI unreadable or out of order"
         if data == text:
             data, refuse, note = mutate_bytes(text.encode("utf-8"), rng)
+            kept = False
         else:
             data = data.encode("utf-8")
     else:
         data, refuse, note = mutate_bytes(text.encode("utf-8"), rng)
+        kept = False  # a line moved or repeated may put another alignment's profile under Ramp B's name
     start = rng.choice(["1000 m", "1000 m", "899 m", "1600 m", "1000", "3281 ft"])
-    refuse = refuse or start in ("899 m", "1600 m", "1000")
+    refuse = refuse or start == "1000" or (kept and start in ("899 m", "1600 m"))  # a bare number; off Ramp B
     argv = ["accel", "--vehicle", "bus", "--from", "20 km/h", "--to", "60 km/h", "--profile", "p.xml",
             "--alignment", "Ramp B", "--profile-name", "Design", "--start-station", start, "--json"]  # fmt: skip
     return Case("LandXML profile", argv, {"p.xml": data}, refuse, [], f"{note}; start {start}")
