@@ -13,19 +13,8 @@ the edges (:mod:`mergecheck.units`). Everything not named in ``__all__`` is
 internal and may change.
 """
 
-from .api import (
-    assess,
-    assess_batch,
-    assess_sites,
-    design_exception,
-    load_site,
-    site_from_dict,
-    sweep_site,
-    to_html,
-    to_json,
-    to_markdown,
-    vehicle_records,
-)
+from .api import *  # noqa: F403  (the functions named in api.__all__)
+from .api import __all__ as _public
 from .assessment import SiteAssessment, SiteCheck, VehicleAssessment, VehicleCurves
 from .batch import BatchResult
 from .errors import InputError
@@ -44,15 +33,5 @@ __all__ = [
     "VehicleAssessment",
     "VehicleCurves",
     "__version__",
-    "assess",
-    "assess_batch",
-    "assess_sites",
-    "design_exception",
-    "load_site",
-    "site_from_dict",
-    "sweep_site",
-    "to_html",
-    "to_json",
-    "to_markdown",
-    "vehicle_records",
 ]
+__all__ += _public

@@ -315,7 +315,7 @@ def _active_curves(
     if not rows:
         return {}, {}
     chosen = [settings[r] for r in rows]
-    behaviours = [s.behaviour for s in chosen if s.behaviour is not None]
+    behaviours = [_behaviour(s) for s in chosen]
     streams = [_stream(s) for s in chosen]
     index = np.array(rows)
     x, v, n, xa = station[index], speed[index], count[index], x_a[index]
@@ -401,6 +401,12 @@ def _active_nodes(gaps: Sequence[CriticalGap]) -> tuple[FloatArray, FloatArray]:
         g: (np.pad(t, (0, size - t.size), mode="edge"), np.pad(w, (0, size - w.size))) for g, (t, w) in distinct.items()
     }
     return np.array([padded[g][0] for g in gaps]), np.array([padded[g][1] for g in gaps])
+
+
+def _behaviour(setting: MergeSetting) -> MergeBehaviour:
+    if setting.behaviour is None:
+        raise ValueError("the classic model has no active merge behaviour")
+    return setting.behaviour
 
 
 def _stream(setting: MergeSetting) -> HeadwayModel:

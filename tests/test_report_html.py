@@ -76,12 +76,17 @@ def test_report_is_well_formed_with_every_figure(cli: Any, repo: Path, tmp_path:
     assert "licensed engineer" in text
 
 
-def test_user_text_is_escaped(cli: Any, repo: Path, tmp_path: Path) -> None:
+def _example_renamed(repo: Path, tmp_path: Path, name: str, notes: str) -> Path:
+    """The Willowmere example with the user's text in its name and notes, written to a new site file."""
     site = yaml.safe_load((repo / "examples" / "willowmere-level.yaml").read_text())
-    site["name"] = "<script>alert(1)</script>"
-    site["notes"] = "Ramp & <b>bold</b> claims"
+    site["name"], site["notes"] = name, notes
     site_file = tmp_path / "site.yaml"
     site_file.write_text(yaml.safe_dump(site))
+    return site_file
+
+
+def test_user_text_is_escaped(cli: Any, repo: Path, tmp_path: Path) -> None:
+    site_file = _example_renamed(repo, tmp_path, "<script>alert(1)</script>", "Ramp & <b>bold</b> claims")
     page = tmp_path / "report.html"
     assert cli("check", site_file, "--html", page, "--exception").code == 0
     text = page.read_text()
@@ -135,11 +140,12 @@ def test_user_text_in_markdown_is_text_not_markup(cli: Any, repo: Path, tmp_path
     """Markdown passes raw HTML through and reads links and emphasis (CommonMark 0.31, sections 4.6, 6.3, 6.4):
     a site name or note must come out as the text the user wrote. Rendered with markdown-it-py, a CommonMark
     implementation (installed with rich), the report holds no element the user typed, and the words survive."""
-    site = yaml.safe_load((repo / "examples" / "willowmere-level.yaml").read_text())
-    site["name"] = "Ramp <img src=x onerror=alert(1)> | [click](javascript:alert(1))"
-    site["notes"] = "# not a heading <script>alert(1)</script> **not bold** _not italic_ ![i](http://x/i.png)"
-    site_file = tmp_path / "site.yaml"
-    site_file.write_text(yaml.safe_dump(site))
+    site_file = _example_renamed(
+        repo,
+        tmp_path,
+        "Ramp <img src=x onerror=alert(1)> | [click](javascript:alert(1))",
+        "# not a heading <script>alert(1)</script> **not bold** _not italic_ ![i](http://x/i.png)",
+    )
     report = tmp_path / "report.md"
     assert cli("check", site_file, "--markdown", report).code == 0
     rendered = markdown_it.MarkdownIt("commonmark").enable("table").render(report.read_text())

@@ -390,7 +390,8 @@ def test_a_quantity_option_may_be_given_unquoted(cli: Any, repo: Path) -> None:
 )
 def test_a_control_character_is_refused_whether_written_raw_or_as_a_yaml_escape(written: str, rule: str) -> None:
     """Files without a backslash or a control character skip the walk over every loaded string: both ways of
-    writing one must still be caught (YAML double-quoted escapes: \\e, \\x, \\u, \\N for U+0085)."""
+    writing one must still be caught (the double-quoted escapes \\e, \\x, \\u and \\N for U+0085 of the YAML 1.2
+    specification, section 5.7, from memory)."""
     with pytest.raises(InputError, match=re.escape(rule)):
         parse_yaml(f"name: {written}\n", "site.yaml")
 
