@@ -1,4 +1,4 @@
-"""Every report carries the cautions: each command's terminal output and JSON document."""
+"""Every report carries the cautions: each command's terminal output and JSON document, and every batch output."""
 
 from __future__ import annotations
 
@@ -64,7 +64,10 @@ def test_check_details_show_every_assumption_and_the_cautions_in_full(cli: Any) 
 
 
 def test_batch_outputs_carry_cautions(cli: Any, tmp_path: Path) -> None:
-    report, data = tmp_path / "corridor.md", tmp_path / "corridor.json"
-    run = cli("batch", EX / "corridor", "--markdown", report, "--json", data)
+    report, data, table = tmp_path / "corridor.md", tmp_path / "corridor.json", tmp_path / "corridor.csv"
+    run = cli("batch", EX / "corridor", "--markdown", report, "--json", data, "--csv", table)
     assert "licensed engineer" in run.stdout and "licensed engineer" in report.read_text()
     assert "licensed engineer" in data.read_text()
+    lines = table.read_text().splitlines()
+    assert lines[: len(CAUTIONS)] == [f"# Caution: {c}" for c in CAUTIONS]  # comment lines, then the table
+    assert lines[len(CAUTIONS)].startswith("rank,site,")

@@ -6,6 +6,7 @@ import csv
 import io
 
 from ..batch import BatchResult
+from ..cautions import CAUTIONS
 from ..units import UnitSystem, unit_symbol
 from .table_rows import COLUMNS, batch_row
 
@@ -29,9 +30,11 @@ def batch_table(results: list[BatchResult], system: UnitSystem) -> tuple[list[st
 
 
 def batch_csv(results: list[BatchResult], system: UnitSystem) -> str:
-    """The batch as CSV: one row per site."""
+    """The batch as CSV: the cautions as comment lines (``#``, as mergecheck's own CSV inputs take them), then a
+    header and one row per site."""
     header, rows = batch_table(results, system)
     buffer = io.StringIO()
+    buffer.writelines(f"# Caution: {caution}\n" for caution in CAUTIONS)
     writer = csv.writer(buffer, lineterminator="\n")
     writer.writerow(header)
     writer.writerows(rows)
@@ -40,7 +43,6 @@ def batch_csv(results: list[BatchResult], system: UnitSystem) -> str:
 
 def batch_xlsx(results: list[BatchResult], system: UnitSystem) -> bytes:
     """The batch as an .xlsx workbook: the CSV's columns (numbers as numbers) and the cautions."""
-    from ..cautions import CAUTIONS
     from ..spreadsheet import workbook
 
     header, rows = batch_table(results, system)
