@@ -115,22 +115,39 @@ def not_a_site(path: Path) -> str | None:
     return next((kind for pattern, kind in _OTHER_FILES if pattern.search(text)), None)
 
 
-def skipped_files(path: str) -> list[str]:
-    """The files of a folder of sites that are clearly not sites, each with what it is."""
-    if not Path(path).is_dir():
-        return []
-    return [f"{printable(f.name)} ({kind}, not a site)" for f in source_files(path) if (kind := not_a_site(f))]
+@dataclass(frozen=True, slots=True)
+class BatchSource:
+    """What a batch reads, each file looked at once: the sites, and the files of a folder that are clearly not
+    sites, each with what it is (left out; :func:`not_a_site`)."""
+
+    entries: list[SiteEntry]
+    skipped: list[str]
+
+
+def read_batch(path: str) -> BatchSource:
+    """Sites from a folder of site files, a YAML file with a list of sites, or a CSV with one site a row."""
+    source = Path(path)
+    if not source.is_dir():
+        return BatchSource(_file_entries(path), [])
+    files, skipped = [], []
+    for f in source_files(path):
+        kind = not_a_site(f)
+        if kind is None:
+            files.append(f)
+        else:
+            skipped.append(f"{printable(f.name)} ({kind}, not a site)")
+    if not files:
+        raise InputError(path, "", "the folder holds no .yaml site files")
+    return BatchSource([SiteEntry(printable(str(f)), partial(read_yaml, str(f))) for f in files], skipped)
 
 
 def read_entries(path: str) -> list[SiteEntry]:
-    """Sites from a folder of site files (other files clearly not sites, such as vehicle profiles, left out: see
-    :func:`skipped_files`), a YAML file with a list of sites, or a CSV with one site a row."""
+    """The sites of :func:`read_batch`."""
+    return read_batch(path).entries
+
+
+def _file_entries(path: str) -> list[SiteEntry]:
     source = Path(path)
-    if source.is_dir():
-        files = [f for f in source_files(path) if not_a_site(f) is None]
-        if not files:
-            raise InputError(path, "", "the folder holds no .yaml site files")
-        return [SiteEntry(printable(str(f)), partial(read_yaml, str(f))) for f in files]
     if source.suffix.lower() == ".csv":
         return list(_csv_entries(path))
     if source.suffix.lower() == ".xlsx":

@@ -15,7 +15,7 @@ from rich.progress import MofNCompleteColumn, Progress
 from rich.text import Text
 
 from . import __version__, api
-from .batch import assess_all, ranked, read_entries, skipped_files, source_files, summarize
+from .batch import assess_all, ranked, read_batch, source_files, summarize
 from .command_results import AccelerationRun, GapFigures
 from .critical_gap_estimation import ESTIMATORS, read_observations
 from .errors import InputError
@@ -436,23 +436,24 @@ def _batch(args: argparse.Namespace, out: Console, err: Console) -> int:
         raise InputError("command line", "--workers", "must lie between 1 and 64")
     asked = [Output(option, path) for option, path in (("--json", args.json), ("--csv", args.csv),
                                                         ("--xlsx", args.xlsx), ("--markdown", args.markdown)) if path]  # fmt: skip
-    check_outputs(asked, source_files(args.input))
-    entries = read_entries(args.input)
+    sources = source_files(args.input)
+    check_outputs(asked, sources)
+    batch = read_batch(args.input)
     if err.is_terminal:  # a progress bar on a terminal only; nothing extra when piped
         with Progress(*Progress.get_default_columns(), MofNCompleteColumn(), console=err, transient=True) as progress:
-            task = progress.add_task("Assessing sites", total=len(entries))
-            results = assess_all(entries, workers=args.workers, tick=lambda count: progress.advance(task, count))
+            task = progress.add_task("Assessing sites", total=len(batch.entries))
+            results = assess_all(batch.entries, workers=args.workers, tick=lambda count: progress.advance(task, count))
     else:
-        results = assess_all(entries, workers=args.workers)
+        results = assess_all(batch.entries, workers=args.workers)
     results = ranked(results)
-    summary = summarize(results, skipped_files(args.input))
+    summary = summarize(results, batch.skipped)
     render: dict[str, Callable[[], str | bytes | Iterator[str]]] = {
         "--json": lambda: json_report.batch_json(results, summary),
         "--csv": lambda: csv_report.batch_csv(results, args.units),
         "--xlsx": lambda: csv_report.batch_xlsx(results, args.units),
         "--markdown": lambda: markdown.batch_markdown(results, summary, args.units),
     }
-    write_all([Output(o.option, o.path, render[o.option]()) for o in asked], source_files(args.input))
+    write_all([Output(o.option, o.path, render[o.option]()) for o in asked], sources)
     _print(out, terminal.batch_view(results, summary, args.units))
     if summary.unreadable:
         return EXIT_INPUT
