@@ -72,6 +72,22 @@ class HeadwayModel(Hashable, Protocol):
         ...
 
 
+def m3_survival(t: ArrayLike, alpha: ArrayLike, decay: ArrayLike, shift: ArrayLike) -> FloatArray:
+    """P(h > t) of the M3 family, Eq. (1): alpha e^(-lambda (t - Delta)) from Delta on, 1 below; the parameters
+    (alpha, lambda [1/s], Delta [s]) broadcast against t, so that many streams are evaluated at once (the negative
+    exponential is alpha = 1, Delta = 0). [-]"""
+    x, a, lam, d = (np.asarray(v, dtype=np.float64) for v in (t, alpha, decay, shift))
+    return np.asarray(np.where(x < d, 1.0, a * np.exp(-lam * np.maximum(x - d, 0.0))), dtype=np.float64)
+
+
+def m3_survival_integral(t: ArrayLike, alpha: ArrayLike, decay: ArrayLike, shift: ArrayLike) -> FloatArray:
+    """Integral of :func:`m3_survival` from 0 to t: min(t, Delta) + alpha (1 - e^(-lambda (t - Delta))) / lambda
+    beyond Delta. [s]"""
+    x, a, lam, d = (np.asarray(v, dtype=np.float64) for v in (t, alpha, decay, shift))
+    x = np.maximum(x, 0.0)
+    return np.asarray(np.minimum(x, d) - np.expm1(-lam * np.maximum(x - d, 0.0)) * a / lam, dtype=np.float64)
+
+
 @dataclass(frozen=True, slots=True)
 class Exponential:
     """Negative-exponential headways (random arrivals) at flow q [veh/s].
@@ -96,6 +112,11 @@ class Exponential:
 
     def mean(self) -> float:
         return 1.0 / self.flow
+
+    @property
+    def m3_form(self) -> tuple[float, float, float]:
+        """(alpha, lambda, Delta) = (1, q, 0): the negative exponential as a member of the M3 family."""
+        return 1.0, self.flow, 0.0
 
     def survival_integral(self, t: ArrayLike) -> FloatArray:
         """(1 - e^{-q t}) / q."""
@@ -160,19 +181,20 @@ class CowanM3:
         """lambda of Eq. (1). [1/s]"""
         return self.free_fraction * self.flow / (1.0 - self.min_headway * self.flow)
 
+    @property
+    def m3_form(self) -> tuple[float, float, float]:
+        """(alpha, lambda, Delta) of Eq. (1), as :func:`m3_survival` takes them."""
+        return self.free_fraction, self.decay, self.min_headway
+
     def survival(self, t: ArrayLike) -> FloatArray:
-        x = np.asarray(t, dtype=np.float64)
-        tail = self.free_fraction * np.exp(-self.decay * np.maximum(x - self.min_headway, 0.0))
-        return np.asarray(np.where(x < self.min_headway, 1.0, tail), dtype=np.float64)  # Eq. (1)
+        return m3_survival(t, *self.m3_form)  # Eq. (1)
 
     def mean(self) -> float:
         return self.min_headway + self.free_fraction / self.decay
 
     def survival_integral(self, t: ArrayLike) -> FloatArray:
         """t below Delta; Delta + alpha (1 - e^{-lambda (t - Delta)}) / lambda above."""
-        x = np.maximum(np.asarray(t, dtype=np.float64), 0.0)
-        beyond = -np.expm1(-self.decay * np.maximum(x - self.min_headway, 0.0)) * self.free_fraction / self.decay
-        return np.asarray(np.minimum(x, self.min_headway) + beyond, dtype=np.float64)
+        return m3_survival_integral(t, *self.m3_form)
 
     def survival_moment(self, t: ArrayLike) -> FloatArray:
         """min(t, Delta)^2 / 2 + alpha [(Delta/lambda + 1/lambda^2) - e^{-lambda (t - Delta)} (t/lambda + 1/lambda^2)] beyond Delta."""

@@ -91,7 +91,7 @@ from typing import Any
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
-from .headways import CowanM3, Exponential, HeadwayModel
+from .headways import CowanM3, Exponential, HeadwayModel, m3_survival, m3_survival_integral
 from .padded_rows import interp_rows
 
 FloatArray = NDArray[np.float64]
@@ -366,15 +366,12 @@ class _Streams:
 
     @classmethod
     def of(cls, models: Sequence[HeadwayModel]) -> _Streams:
-        rows = []
+        forms = []
         for m in models:
-            if isinstance(m, CowanM3):
-                rows.append((m.free_fraction, m.decay, m.min_headway))
-            elif isinstance(m, Exponential):
-                rows.append((1.0, m.flow, 0.0))
-            else:
+            if not isinstance(m, (CowanM3, Exponential)):
                 raise TypeError(f"no closed form for headway model {type(m).__name__}")
-        a = np.array(rows, dtype=float).reshape(-1, 3)
+            forms.append(m.m3_form)
+        a = np.array(forms, dtype=np.float64).reshape(-1, 3)
         return cls(a[:, :1], a[:, 1:2], a[:, 2:])
 
     def take(self, keep: NDArray[np.bool_]) -> _Streams:
@@ -382,10 +379,7 @@ class _Streams:
 
     def survival(self, t: Times) -> FloatArray:
         """P(h > t), t broadcast against the (V, 1) columns. [-]"""
-        return np.asarray(
-            np.where(t < self.shift, 1.0, self.alpha * np.exp(-self.decay * np.maximum(t - self.shift, 0.0))),
-            dtype=float,
-        )
+        return m3_survival(t, self.alpha, self.decay, self.shift)
 
     def cdf(self, t: Times) -> FloatArray:
         """P(h <= t). [-]"""
@@ -393,9 +387,7 @@ class _Streams:
 
     def survival_integral(self, t: Times) -> FloatArray:
         """Integral of P(h > r) from 0 to t. [s]"""
-        x = np.maximum(t, 0.0)
-        a, lam, d = self.alpha, self.decay, self.shift
-        return np.asarray(np.minimum(x, d) - np.expm1(-lam * np.maximum(x - d, 0.0)) * a / lam, dtype=float)
+        return m3_survival_integral(t, self.alpha, self.decay, self.shift)
 
 
 def solve(

@@ -3,12 +3,21 @@
 from __future__ import annotations
 
 import math
+from collections.abc import Callable
 
 import numpy as np
 import pytest
 from scipy import stats
 
-from mergecheck.headways import CowanM3, Exponential, adams_wait, headway_model, mean_wait
+from mergecheck.headways import (
+    CowanM3,
+    Exponential,
+    adams_wait,
+    headway_model,
+    m3_survival,
+    m3_survival_integral,
+    mean_wait,
+)
 
 
 @pytest.mark.parametrize("flow_veh_h", [300.0, 1200.0, 1900.0])
@@ -36,6 +45,29 @@ def test_m3_free_part_matches_shifted_scipy_exponential() -> None:
     m3 = CowanM3(1500 / 3600, 1.2, 0.55)
     t = np.linspace(1.2, 15.0, 30)
     assert np.allclose(m3.survival(t), 0.55 * stats.expon(loc=1.2, scale=1 / m3.decay).sf(t), rtol=1e-12)
+
+
+def _scalar(model: Exponential | CowanM3) -> Callable[[float], float]:
+    return lambda r: float(model.survival(r))
+
+
+def test_m3_columns_give_every_stream_at_once() -> None:
+    """The family form over many streams (parameters as columns) against scipy.stats.expon, stream by stream:
+    S(t) = alpha sf(t; loc Delta, scale 1/lambda) beyond Delta, 1 below, and its integral against
+    scipy.integrate.quad (general-purpose reference libraries)."""
+    from scipy.integrate import quad
+
+    models = [Exponential(0.4), CowanM3.tanner(0.3, 1.0), CowanM3(0.35, 1.5, 0.4)]
+    alpha, decay, shift = (np.array(column)[:, None] for column in zip(*(m.m3_form for m in models), strict=True))
+    t = np.linspace(0.0, 12.0, 25)
+    survival, integral = m3_survival(t, alpha, decay, shift), m3_survival_integral(t, alpha, decay, shift)
+    for row, m in enumerate(models):
+        a, lam, d = m.m3_form
+        reference = np.where(t < d, 1.0, a * stats.expon(loc=d, scale=1 / lam).sf(t))
+        assert np.allclose(survival[row], reference, rtol=1e-12)
+        assert np.allclose(survival[row], m.survival(t), rtol=1e-12)
+        by_quad = [quad(_scalar(m), 0.0, x, points=[d] if 0 < d < x else None)[0] for x in t]
+        assert np.allclose(integral[row], by_quad, rtol=1e-9, atol=1e-12)
 
 
 @pytest.mark.parametrize("model", [Exponential(0.4), CowanM3.tanner(0.4, 1.0), CowanM3(0.35, 1.5, 0.4)])
