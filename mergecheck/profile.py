@@ -20,6 +20,8 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
+from .ragged_rows import RaggedRows
+
 FloatArray = NDArray[np.float64]
 IndexArray = NDArray[np.intp]
 
@@ -156,10 +158,8 @@ class ProfileStack:
     """(n,) station beyond which each row's grade is constant (-inf for a single grade). [m]"""
     final_grade: FloatArray
     """(n,) grade after each row's last change. [fraction]"""
-    _key: FloatArray
-    """(K,) the knots laid end to end on one ascending axis, row r shifted by r times ``_span``."""
-    _low: float
-    _span: float
+    _knots: RaggedRows
+    """``knot`` by row, for the search of the segment that holds a station."""
 
     @classmethod
     def of(cls, profiles: Sequence[VerticalProfile]) -> ProfileStack:
@@ -184,9 +184,6 @@ class ProfileStack:
             first.append(len(knots))
         reference, grade, slope, height = np.array(segments, dtype=float).reshape(-1, 4).T
         knot = np.asarray(knots, dtype=float)
-        low = float(min(knot.min(initial=0.0), 0.0)) - 1.0
-        span = float(max(knot.max(initial=0.0), 0.0)) - low + 2.0
-        rows = np.repeat(np.arange(len(profiles)), np.diff(first))
         return cls(
             knot=knot,
             first_knot=np.asarray(first, dtype=np.intp),
@@ -196,26 +193,12 @@ class ProfileStack:
             height=height,
             last_change_end=np.array([p.last_change_end for p in profiles], dtype=float),
             final_grade=np.array([p.final_grade for p in profiles], dtype=float),
-            _key=(knot - low) + rows * span,
-            _low=low,
-            _span=span,
+            _knots=RaggedRows.of(knot, first),
         )
 
     def _count(self, station: FloatArray, rows: IndexArray) -> IndexArray:
         """Number of the row's knots at or before each station (the row's segment index)."""
-        start, stop = self.first_knot[rows], self.first_knot[rows + 1]
-        if not self.knot.size:
-            return np.zeros(station.shape, dtype=np.intp)
-        shifted = (np.clip(station, self._low, self._low + self._span - 1.0) - self._low) + rows * self._span
-        count = np.searchsorted(self._key, shifted, side="right") - start
-        count = np.clip(count, 0, stop - start)
-        # the shift rounds: settle the last ulp against the knots themselves, so x at a knot is past it
-        while True:
-            back = (count > 0) & (self.knot[np.maximum(start + count - 1, 0)] > station)
-            ahead = (start + count < stop) & (self.knot[np.minimum(start + count, self.knot.size - 1)] <= station)
-            if not (back.any() or ahead.any()):
-                return np.asarray(count, dtype=np.intp)
-            count = count - back + ahead
+        return self._knots.count(station, rows)
 
     def _segment(self, station: FloatArray, rows: IndexArray | None) -> tuple[IndexArray, FloatArray]:
         rows = np.arange(station.size, dtype=np.intp) if rows is None else rows

@@ -52,6 +52,7 @@ from numpy.typing import ArrayLike, NDArray
 
 from .acceleration import AccelerationModel, ModelStack
 from .profile import ProfileStack, VerticalProfile
+from .ragged_rows import RaggedRows
 
 FloatArray = NDArray[np.float64]
 IndexArray = NDArray[np.intp]
@@ -201,9 +202,7 @@ def speeds_at(trajectories: Sequence[Trajectory], stations: Sequence[FloatArray]
 def _evaluate(trajectories: Sequence[Trajectory], stations: Sequence[FloatArray], component: int) -> list[FloatArray]:
     """u = v^2/2 (component 0) or t (component 1) of each trajectory at its stations, on its continuous extension.
 
-    Every trajectory's steps are searched at once: laid end to end, each moved clear of the one before (the
-    shift costs about 1e-16 of their total length in where a station falls, and a station that lands on the
-    neighbouring step reads the same continuous extension there).
+    Every trajectory's steps are searched at once (:class:`mergecheck.ragged_rows.RaggedRows`).
     """
     sizes = np.array([s.size for s in stations], dtype=np.intp)
     x = np.concatenate([np.asarray(s, dtype=float).reshape(-1) for s in stations]) if stations else np.zeros(0)
@@ -219,15 +218,9 @@ def _evaluate(trajectories: Sequence[Trajectory], stations: Sequence[FloatArray]
         step_x, h = np.concatenate([p.x for p in pieces]), np.concatenate([p.h for p in pieces])
         y = np.concatenate([p.y[component] for p in pieces])
         q = np.concatenate([p.q[:, component] for p in pieces], axis=1)
-        first = np.cumsum(counts) - counts
-        lowest = np.array(
-            [min(t.start, p.x[0]) if p.x.size else t.start for t, p in zip(trajectories, pieces, strict=True)]
-        )
-        highest = np.array([t.end for t in trajectories])
-        clear = np.arange(len(trajectories)) * (float(np.max(highest - lowest)) + 1.0) - lowest
-        found = np.searchsorted(step_x + np.repeat(clear, counts), x + clear[owner], side="right") - 1
-        i = np.clip(found, first[owner], first[owner] + np.maximum(counts[owner] - 1, 0))
-        i = np.minimum(i, step_x.size - 1)
+        first = np.concatenate([[0], np.cumsum(counts)])
+        found = RaggedRows.of(step_x, first).count(x, owner) - 1  # the step that holds x, the first before it
+        i = np.minimum(first[owner] + np.clip(found, 0, np.maximum(counts[owner] - 1, 0)), step_x.size - 1)
         h_i = np.take(h, i)
         value = _dense(np.take(y, i), h_i, np.take(q, i, axis=1), (x - np.take(step_x, i)) / h_i)
     v0 = np.array([t.initial_speed for t in trajectories])[owner]

@@ -16,7 +16,7 @@ ROOMS = {
     "inputs": {"site", "vehicles", "policy", "inputs", "units", "limits", "fields", "landxml", "spreadsheet", "errors"},
     "models": {"profile", "dynamics", "acceleration", "trajectory", "headways", "critical_gaps", "stream_time",
                "renewal", "merge_behaviour", "merge_reliability", "monte_carlo", "merge_area", "shockwave",
-               "critical_gap_estimation", "padded_rows"},
+               "critical_gap_estimation", "padded_rows", "ragged_rows"},
 }  # fmt: skip
 ORDER = ["faces", "reports", "studies", "inputs", "models"]
 READERS = {"errors", "inputs", "units"}
