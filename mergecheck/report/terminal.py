@@ -178,13 +178,17 @@ def _blocks(blocks: Sequence[Block], system: UnitSystem) -> list[RenderableType]
     return shown
 
 
+PROSE_WIDTH = 72
+"""Characters at which a text column after the first wraps (a file or pipe has no terminal width to wrap at)."""
+
+
 def _table(table: DocumentTable, system: UnitSystem) -> Table:
     shown = Table(title=table.caption or None, title_justify="left")
     for i, (heading, kind) in enumerate(table.columns):
         unit = unit_of(kind, system)
         heading = f"{heading} ({unit})" if unit else heading
-        if kind == "text":
-            shown.add_column(heading, no_wrap=i == 0)  # the first column (vehicle ids) whole
+        if kind == "text":  # the first column (vehicle ids) whole; prose wraps, piped as on a terminal
+            shown.add_column(heading, no_wrap=i == 0, max_width=None if i == 0 else PROSE_WIDTH)
         else:
             shown.add_column(heading, justify="right")
     for row in table.rows:
