@@ -49,7 +49,7 @@ from typing import Any
 
 from .assessment import SiteAssessment, assess, assess_many
 from .errors import InputError
-from .inputs import csv_rows, printable, read_text, read_yaml, validated
+from .inputs import csv_rows, file_kind, printable, read_text, read_yaml, validated
 from .policy import load_policy
 from .site import Site, SiteInput, site_from_input
 from .spreadsheet import sheet_rows
@@ -90,8 +90,11 @@ class BatchResult:
 def source_files(path: str) -> list[Path]:
     """The files a batch reads: the site files of a folder, or the one file given."""
     source = Path(path)
-    if source.is_dir():
-        return sorted(p for p in source.iterdir() if p.suffix in (".yaml", ".yml"))
+    if file_kind(source, path, "") == "folder":
+        try:
+            return sorted(p for p in source.iterdir() if p.suffix in (".yaml", ".yml"))
+        except OSError as error:
+            raise InputError(path, "", f"cannot list the folder: {error.strerror}") from None
     return [source]
 
 
@@ -126,8 +129,7 @@ class BatchSource:
 
 def read_batch(path: str) -> BatchSource:
     """Sites from a folder of site files, a YAML file with a list of sites, or a CSV with one site a row."""
-    source = Path(path)
-    if not source.is_dir():
+    if file_kind(path, path, "") != "folder":
         return BatchSource(_file_entries(path), [])
     files, skipped = [], []
     for f in source_files(path):

@@ -173,7 +173,10 @@ def design_exception(base: SiteAssessment, *, prepared_by: str | None = None) ->
     """The design-exception study for an assessed site, dated, with who prepared it and the site file's digest."""
     site = base.site
     source = Path(site.source)
-    digest = hashlib.sha256(source.read_bytes()).hexdigest() if source.is_file() else None
+    try:  # the digest of the file the site was read from; none for a site given as data, or gone since
+        digest = hashlib.sha256(source.read_bytes()).hexdigest() if source.is_file() else None
+    except OSError:
+        digest = None
     policy_length = None if base.policy is None else base.policy.minimum_length
     deficit = None if policy_length is None else policy_length - site.lane_length
     return DesignException(

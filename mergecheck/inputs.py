@@ -7,9 +7,11 @@ from __future__ import annotations
 
 import csv
 import difflib
+import os
 import re
+import stat
 from pathlib import Path
-from typing import Any, TypeVar
+from typing import Any, Literal, TypeVar
 
 import yaml
 from pydantic import BaseModel, ConfigDict, Field, ValidationError
@@ -176,6 +178,20 @@ def parse_yaml(text: str, source: str) -> Any:
     if "\\" in text or _CONTROL.search(text):  # a loaded string can hold one only if the text does, or escapes it
         refuse_control_characters(data, source)
     return data
+
+
+def file_kind(path: str | Path, source: str, field: str) -> Literal["file", "folder", "other"] | None:
+    """What an input names at ``path`` (symbolic links followed): a regular file, a folder, something else, or
+    None when nothing is there. A path the system cannot look up (a name too long, a loop of links, a folder
+    that may not be searched) raises :class:`InputError` naming the source and the field."""
+    try:
+        mode = os.stat(path).st_mode
+    except (FileNotFoundError, NotADirectoryError):
+        return None
+    except (OSError, ValueError) as error:  # ValueError: a NUL byte
+        reason = error.strerror if isinstance(error, OSError) and error.strerror else str(error)
+        raise InputError(source, field, f"cannot look up {printable(str(path))[:200]}: {reason}") from None
+    return "file" if stat.S_ISREG(mode) else "folder" if stat.S_ISDIR(mode) else "other"
 
 
 def read_text(path: str | Path, what: str = "the file") -> str:

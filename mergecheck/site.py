@@ -22,7 +22,7 @@ from pydantic import BaseModel, ConfigDict, Field
 from .critical_gaps import CriticalGap, default_critical_gaps
 from .errors import InputError
 from .fields import Reads
-from .inputs import GradePoint, build_profile, read_yaml, validated
+from .inputs import GradePoint, build_profile, file_kind, read_yaml, validated
 from .landxml import read_profile as read_landxml
 from .limits import (
     APPROACH_WINDOW,
@@ -793,7 +793,7 @@ def _policy_choice(policy: str | None, design_speed: str, base_dir: Path, source
         return PolicyChoice(named, "named in the site file")
     path = Path(policy)
     path = path if path.is_absolute() else base_dir / path
-    if not path.is_file():
+    if file_kind(path, source, "policy") != "file":
         choices = ", ".join(("none", *sorted(BUNDLED_POLICIES)))
         rule = f"names no policy table: give one of {choices}, or the path of a table file (no file {policy} was found)"
         raise InputError(source, "policy", rule)

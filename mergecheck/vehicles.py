@@ -41,7 +41,7 @@ from pydantic import BaseModel, ConfigDict, Field
 from .acceleration import AccelerationModel, LinearDecreasing, PowerLimited, Tabulated, model_entry
 from .dynamics import PowerLimitedVehicle
 from .errors import InputError
-from .inputs import parse_yaml, read_text, validated
+from .inputs import file_kind, parse_yaml, read_text, validated
 from .limits import VEHICLE_SPEED
 from .units import parse_quantity, si_unit
 
@@ -191,7 +191,7 @@ def load_vehicle(
     looks_like_path = ref.endswith((".yaml", ".yml")) or "/" in ref or "\\" in ref
     if looks_like_path:
         path = Path(ref) if relative_to is None or Path(ref).is_absolute() else relative_to / ref
-        if not path.exists():
+        if file_kind(path, source, field or ref) is None:
             rule = f"no vehicle profile file {path} (and not a bundled id: {', '.join(bundled_ids())})"
             raise InputError(source, field or ref, rule)
         return parse_vehicle(read_text(path, "the vehicle profile"), str(path))

@@ -398,3 +398,22 @@ def test_a_control_character_is_refused_whether_written_raw_or_as_a_yaml_escape(
 
 def test_the_control_character_pattern_is_the_character_rule() -> None:
     assert all(_is_control(c) == bool(_CONTROL.fullmatch(c)) for c in map(chr, range(0x110000)))
+
+
+def test_a_path_the_system_cannot_look_up_is_an_input_error(cli: Any, tmp_path: Path) -> None:
+    """A file name of 300 characters is longer than any common file system allows (255 bytes a name: common
+    practice on Linux, macOS and Windows): every command that takes a path says so, naming the field."""
+    long = "n" * 300
+    site = tmp_path / "site.yaml"
+    cases = [
+        (edited(("policy",), long), "policy"),
+        (edited(("ramp", "vehicles"), {f"{long}.yaml": 1.0}), f"ramp.vehicles.{long}.yaml"),
+    ]
+    for data, field in cases:
+        site.write_text(yaml.safe_dump(data))
+        run = cli("check", site)
+        assert run.code == 2 and f"{field}: cannot look up" in run.stderr and "Traceback" not in run.stderr, field
+    for args in (["batch", long], ["batch", f"{long}.csv"], ["accel", "--vehicle", f"{long}.yaml", "--from",
+                 "0 km/h", "--to", "50 km/h", "--grade", "0 %"]):  # fmt: skip
+        run = cli(*args)
+        assert run.code == 2 and "cannot look up" in run.stderr and "internal error" not in run.stderr, args
