@@ -110,8 +110,10 @@ def not_a_site(path: Path) -> str | None:
     """What a YAML file in a folder of sites is, when it is clearly something else (a vehicle profile, a policy
     table: no top-level ``mainline`` and that kind's own keys); None for a site or anything unclear."""
     try:
+        if file_kind(path, str(path), "") != "file":
+            return None  # not a regular file: reported as such when it is read
         text = path.read_text(encoding="utf-8", errors="replace")
-    except OSError:
+    except (OSError, InputError):
         return None  # unreadable: reported as such when it is read
     if _SITE_KEY.search(text):
         return None

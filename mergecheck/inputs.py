@@ -195,7 +195,12 @@ def file_kind(path: str | Path, source: str, field: str) -> Literal["file", "fol
 
 
 def read_text(path: str | Path, what: str = "the file") -> str:
-    """A text file's content; a file that cannot be read or is not UTF-8 raises :class:`InputError`."""
+    """A text file's content; a path that is not a regular file (a folder, a pipe that would wait for a writer, a
+    device that never ends), a file that cannot be read or one that is not UTF-8 raises :class:`InputError`."""
+    kind = file_kind(path, str(path), "")
+    if kind in ("folder", "other"):
+        what_it_is = "a folder" if kind == "folder" else "a device, pipe or socket"
+        raise InputError(str(path), "", f"cannot read {what}: it is {what_it_is}, not a regular file")
     try:
         return Path(path).read_text(encoding="utf-8")
     except OSError as error:

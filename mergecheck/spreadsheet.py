@@ -15,6 +15,7 @@ from pathlib import Path
 from typing import Any
 
 from .errors import InputError
+from .inputs import file_kind
 
 LARGEST = 50_000_000
 """Largest workbook read. [bytes]"""
@@ -25,6 +26,8 @@ MOST_ROWS = 100_000
 def sheet_rows(path: str) -> list[tuple[str, dict[str, str]]]:
     """(label, row) for each site row of the workbook: the label names the file, the sheet and the row."""
     source = Path(path)
+    if file_kind(source, path, "") not in ("file", None):
+        raise InputError(path, "", "cannot read the workbook: not a regular file")
     try:
         size = source.stat().st_size
     except OSError as error:

@@ -4,7 +4,9 @@ from __future__ import annotations
 
 import copy
 import json
+import os
 import re
+import shutil
 from pathlib import Path
 from typing import Any
 
@@ -417,3 +419,21 @@ def test_a_path_the_system_cannot_look_up_is_an_input_error(cli: Any, tmp_path: 
                  "0 km/h", "--to", "50 km/h", "--grade", "0 %"]):  # fmt: skip
         run = cli(*args)
         assert run.code == 2 and "cannot look up" in run.stderr and "internal error" not in run.stderr, args
+
+
+@pytest.mark.skipif(not hasattr(os, "mkfifo") or not Path("/dev/zero").exists(), reason="POSIX pipes and devices")
+def test_a_pipe_or_a_device_is_refused_not_read(cli: Any, repo: Path, tmp_path: Path) -> None:
+    """A named pipe would wait for a writer forever and /dev/zero never ends: every input path refuses anything
+    but a regular file at once, and a batch folder reports such an entry and assesses the rest."""
+    pipe = tmp_path / "pipe.yaml"
+    os.mkfifo(pipe)
+    book = tmp_path / "book.xlsx"
+    os.mkfifo(book)
+    for args in (["check", pipe], ["check", "/dev/zero"], ["batch", book], ["critical-gap", "/dev/zero"],
+                 ["accel", "--vehicle", pipe, "--from", "0 km/h", "--to", "50 km/h", "--grade", "0 %"]):  # fmt: skip
+        run = cli(*args)
+        assert run.code == 2 and "not a regular file" in run.stderr, args
+    shutil.copy(repo / "examples" / "willowmere-level.yaml", tmp_path)
+    run = cli("batch", tmp_path)
+    assert run.code == 2 and "1 meet" in run.stdout and "1 unreadable" in run.stdout
+    assert "pipe.yaml: cannot read the file: it is a device, pipe or socket" in " ".join(run.stdout.split())
