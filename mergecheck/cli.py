@@ -122,12 +122,16 @@ def build_parser() -> argparse.ArgumentParser:
 
     commands.add_parser("schema", help="print the JSON Schema of the site file").set_defaults(run=_schema)
 
-    batch = commands.add_parser("batch", help="assess many sites: a folder of site files, a YAML list or a CSV")
+    batch = commands.add_parser(
+        "batch", help="assess many sites: a folder of site files, a YAML list, a CSV or a workbook"
+    )
     batch.set_defaults(run=_batch)
-    batch.add_argument("input", help="folder of site files, YAML file with a list of sites, or CSV (one site a row)")
+    batch.add_argument(
+        "input", help="folder of site files, YAML file with a list of sites, or CSV or .xlsx workbook (one site a row)"
+    )
     batch.add_argument("--units", choices=["si", "us"], default="si", help="unit system for display")
     batch.add_argument("--json", metavar="FILE", help="write every site's full check (SI) to FILE")
-    batch.add_argument("--csv", metavar="FILE", help="write one row per site to FILE")
+    batch.add_argument("--csv", metavar="FILE", help="write one row per site to FILE, after the cautions")
     batch.add_argument("--xlsx", metavar="FILE", help="write one row per site to an .xlsx workbook")
     batch.add_argument("--markdown", metavar="FILE", help="write the corridor report to FILE")
     batch.add_argument("--workers", type=int, help="worker processes (default: all cores)")
