@@ -276,7 +276,7 @@ def assess_chunk(entries: list[SiteEntry]) -> list[BatchResult]:
     Each site's figures equal the single-site path's: the vehicles of all
     sites are integrated side by side, each independently of the others.
     """
-    with _bulk():
+    with collection_paused():
         return _assess_chunk(entries)
 
 
@@ -303,7 +303,7 @@ def _assess_chunk(entries: list[SiteEntry]) -> list[BatchResult]:
 
 
 @contextmanager
-def _bulk() -> Iterator[None]:
+def collection_paused() -> Iterator[None]:
     """Cyclic garbage collection paused while many small result objects (and no cycles) are made.
 
     Collections would otherwise walk every result kept so far, again and again.
@@ -337,7 +337,7 @@ def assess_all(
     size = min(CHUNK, -(-len(entries) // (4 * workers))) if parallel else CHUNK  # four runs a worker
     chunks = [entries[i : i + size] for i in range(0, len(entries), size)]
     results: list[BatchResult] = []
-    with _bulk(), ProcessPoolExecutor(max_workers=workers) if parallel else nullcontext() as pool:
+    with collection_paused(), ProcessPoolExecutor(max_workers=workers) if parallel else nullcontext() as pool:
         done: Iterator[list[BatchResult]] = pool.map(assess_chunk, chunks) if pool else map(assess_chunk, chunks)
         for chunk in done:
             results.extend(chunk)

@@ -15,7 +15,7 @@ from rich.progress import MofNCompleteColumn, Progress
 from rich.text import Text
 
 from . import __version__, api
-from .batch import assess_all, ranked, read_batch, source_files, summarize
+from .batch import assess_all, collection_paused, ranked, read_batch, source_files, summarize
 from .command_results import AccelerationRun, GapFigures
 from .critical_gap_estimation import ESTIMATORS, read_observations
 from .errors import InputError
@@ -442,23 +442,28 @@ def _batch(args: argparse.Namespace, out: Console, err: Console) -> int:
                                                         ("--xlsx", args.xlsx), ("--markdown", args.markdown)) if path]  # fmt: skip
     sources = source_files(args.input)
     check_outputs(asked, sources)
-    batch = read_batch(args.input)
-    if err.is_terminal:  # a progress bar on a terminal only; nothing extra when piped
-        with Progress(*Progress.get_default_columns(), MofNCompleteColumn(), console=err, transient=True) as progress:
-            task = progress.add_task("Assessing sites", total=len(batch.entries))
-            results = assess_all(batch.entries, workers=args.workers, tick=lambda count: progress.advance(task, count))
-    else:
-        results = assess_all(batch.entries, workers=args.workers)
-    results = ranked(results)
-    summary = summarize(results, batch.skipped)
-    render: dict[str, Callable[[], str | bytes | Iterator[str]]] = {
-        "--json": lambda: json_report.batch_json(results, summary),
-        "--csv": lambda: csv_report.batch_csv(results, args.units),
-        "--xlsx": lambda: csv_report.batch_xlsx(results, args.units),
-        "--markdown": lambda: markdown.batch_markdown(results, summary, args.units),
-    }
-    write_all([Output(o.option, o.path, render[o.option]()) for o in asked], sources)
-    _print(out, terminal.batch_view(results, summary, args.units))
+    with collection_paused():  # the results live to the end and hold no cycles: no collection need walk them
+        batch = read_batch(args.input)
+        if err.is_terminal:  # a progress bar on a terminal only; nothing extra when piped
+            with Progress(
+                *Progress.get_default_columns(), MofNCompleteColumn(), console=err, transient=True
+            ) as progress:
+                task = progress.add_task("Assessing sites", total=len(batch.entries))
+                results = assess_all(
+                    batch.entries, workers=args.workers, tick=lambda count: progress.advance(task, count)
+                )
+        else:
+            results = assess_all(batch.entries, workers=args.workers)
+        results = ranked(results)
+        summary = summarize(results, batch.skipped)
+        render: dict[str, Callable[[], str | bytes | Iterator[str]]] = {
+            "--json": lambda: json_report.batch_json(results, summary),
+            "--csv": lambda: csv_report.batch_csv(results, args.units),
+            "--xlsx": lambda: csv_report.batch_xlsx(results, args.units),
+            "--markdown": lambda: markdown.batch_markdown(results, summary, args.units),
+        }
+        write_all([Output(o.option, o.path, render[o.option]()) for o in asked], sources)
+        _print(out, terminal.batch_view(results, summary, args.units))
     if summary.unreadable:
         return EXIT_INPUT
     return EXIT_SHORT if summary.short else EXIT_OK
