@@ -50,7 +50,8 @@ def site_from_dict(data: Mapping[str, Any], *, source: str = "site") -> Site:
     ``source`` names the site in error messages; vehicle and policy files named by a relative path are read
     from the working directory.
     """
-    return site_from_input(validated(dict(data), SiteInput, source, "a site (name, mainline, ramp, ...)"), source)
+    raw = dict(data) if isinstance(data, Mapping) else data  # anything else is refused by the validation
+    return site_from_input(validated(raw, SiteInput, source, "a site (name, mainline, ramp, ...)"), source)
 
 
 def assess(
@@ -76,7 +77,10 @@ def assess_batch(
     if isinstance(source, (str, os.PathLike)):
         entries = read_entries(os.fspath(source))
     else:
-        entries = [SiteEntry.given(f"site {i}", dict(site)) for i, site in enumerate(source, start=1)]
+        entries = [  # an item that is not a mapping is reported as unreadable, as in a YAML list of sites
+            SiteEntry.given(f"site {i}", dict(site) if isinstance(site, Mapping) else site)
+            for i, site in enumerate(source, start=1)
+        ]
     return ranked(assess_all(entries, workers=workers))
 
 

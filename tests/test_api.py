@@ -42,3 +42,13 @@ def test_batch_of_mappings_reports_the_unreadable_one_and_ranks_the_rest(repo: P
     records = mergecheck.vehicle_records(results)
     assert {r["vehicle"] for r in records} == {v.vehicle.id for v in results[1].assessment.vehicles}  # type: ignore[union-attr]
     assert all(r["available_length_m"] == 300.0 for r in records)
+
+
+def test_something_that_is_not_a_mapping_is_bad_input_not_a_crash() -> None:
+    """A script that hands over a list, a number or None where a site belongs gets the input error the site
+    file would give, from one site and from a batch (where it is one unreadable result among the others)."""
+    for odd in (5, None, "abc", [1, 2]):
+        with pytest.raises(mergecheck.InputError, match="must be a mapping"):
+            mergecheck.site_from_dict(odd)  # type: ignore[arg-type]
+    results = mergecheck.assess_batch([5, None], workers=1)  # type: ignore[list-item]
+    assert [r.error for r in results] == ["a site must be a mapping of fields"] * 2
