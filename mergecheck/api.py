@@ -87,7 +87,7 @@ def assess_batch(
 def sweep_site(site: Site, vary: str) -> Sweep:
     """Rerun a site across one input, ``vary`` as ``FIELD=START:STOP:STEP`` with units, e.g.
     ``"lane_length=200 m:600 m:50 m"`` (fields: lane_length, grade, adjacent_lane_flow, weight_to_power)."""
-    field, _, values = parse_range(vary, source="vary")
+    field, _, values = parse_range(vary, source="sweep_site", name="vary")
     return _sweep(site, field, values)
 
 

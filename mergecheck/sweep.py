@@ -58,29 +58,30 @@ class Sweep:
     points: tuple[SweepPoint, ...]
 
 
-def parse_range(text: str, source: str = "command line") -> tuple[str, str, np.ndarray]:
-    """``FIELD=START:STOP:STEP`` with units, e.g. ``lane_length=200 m:600 m:50 m`` -> field, kind, SI values."""
+def parse_range(text: str, source: str = "command line", name: str = "--vary") -> tuple[str, str, np.ndarray]:
+    """``FIELD=START:STOP:STEP`` with units, e.g. ``lane_length=200 m:600 m:50 m`` -> field, kind, SI values;
+    errors name ``source`` and the option or argument ``name`` the text came in."""
     field, sep, span = text.partition("=")
     field = field.strip()
     if not sep or field not in FIELDS:
-        raise InputError(source, "--vary", f"expected FIELD=START:STOP:STEP with FIELD one of {', '.join(FIELDS)}")
+        raise InputError(source, name, f"expected FIELD=START:STOP:STEP with FIELD one of {', '.join(FIELDS)}")
     parts = span.split(":")
     if len(parts) != 3:
-        raise InputError(source, "--vary", "expected START:STOP:STEP, each with its unit, e.g. 200 m:600 m:50 m")
+        raise InputError(source, name, "expected START:STOP:STEP, each with its unit, e.g. 200 m:600 m:50 m")
     kind = FIELDS[field]
-    start, stop, step = (parse_quantity(p, kind, source=source, field=f"--vary {field}") for p in parts)
+    start, stop, step = (parse_quantity(p, kind, source=source, field=f"{name} {field}") for p in parts)
     if step <= 0 or stop < start:
-        raise InputError(source, "--vary", "STEP must be positive and STOP not below START")
+        raise InputError(source, name, "STEP must be positive and STOP not below START")
     limit, like = RANGES[field]
     rule = f"every value {limit.rule}, as {like}"
     if not (limit.holds(start) and limit.holds(stop)):
-        raise InputError(source, f"--vary {field}", rule)
+        raise InputError(source, f"{name} {field}", rule)
     count = (stop - start) / step + 1
     if count > MAX_POINTS:
-        raise InputError(source, "--vary", f"{count:.3g} points; at most {MAX_POINTS}")
+        raise InputError(source, name, f"{count:.3g} points; at most {MAX_POINTS}")
     values = start + step * np.arange(int(np.floor(count - 1 + 1e-9)) + 1)
     if not all(limit.holds(float(v)) for v in values):
-        raise InputError(source, f"--vary {field}", rule)
+        raise InputError(source, f"{name} {field}", rule)
     return field, kind, values
 
 

@@ -52,3 +52,10 @@ def test_something_that_is_not_a_mapping_is_bad_input_not_a_crash() -> None:
             mergecheck.site_from_dict(odd)  # type: ignore[arg-type]
     results = mergecheck.assess_batch([5, None], workers=1)  # type: ignore[list-item]
     assert [r.error for r in results] == ["a site must be a mapping of fields"] * 2
+
+
+def test_a_bad_sweep_is_named_as_the_api_takes_it(repo: Path) -> None:
+    """The error names the call and its argument, not the command line's option."""
+    site = mergecheck.load_site(repo / "examples" / "willowmere-level.yaml")
+    with pytest.raises(mergecheck.InputError, match=r"^sweep_site: vary lane_length: wrong kind of quantity"):
+        mergecheck.sweep_site(site, "lane_length=1 kg:2 m:1 m")
