@@ -17,6 +17,7 @@ from .batch import BatchResult, SiteEntry, assess_all, ranked, read_entries
 from .exception_study import DesignException
 from .exception_study import design_exception as _design_exception
 from .inputs import validated
+from .limits import DRIVERS, WORKERS, check_count
 from .site import Site, SiteInput, site_from_input
 from .site import load_site as _load_site
 from .sweep import Sweep, parse_range
@@ -60,6 +61,7 @@ def assess(
     """Assess every design vehicle at a site against the policy table and their own needs
     (:func:`mergecheck.assessment.assess`); ``monte_carlo`` adds a seeded simulation of that many drivers,
     ``progress`` is told how many have been drawn as each batch of them is done."""
+    check_count(monte_carlo, DRIVERS, "assess", "monte_carlo", "drivers")
     return _assess(site, monte_carlo=monte_carlo, seed=seed, progress=progress)
 
 
@@ -74,6 +76,8 @@ def assess_batch(
     """Assess many sites, ranked worst first: a folder of site files, a YAML list, a CSV (one site a row), or
     mappings as :func:`site_from_dict` takes. A site that cannot be read is a result with its ``error`` and no
     ``assessment``; the others are assessed (figures only: no curves along the path)."""
+    if workers is not None:
+        check_count(workers, WORKERS, "assess_batch", "workers", "processes")
     if isinstance(source, (str, os.PathLike)):
         entries = read_entries(os.fspath(source))
     else:

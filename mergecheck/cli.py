@@ -24,7 +24,18 @@ from .fields import Reads, read_option
 from .headways import HEADWAY_MODELS, headway_model, mean_wait
 from .inputs import ProfileFile, build_profile, check_grade, control_character, printable, read_yaml, validated
 from .landxml import is_landxml, read_profile
-from .limits import CRITICAL_GAP, ELEVATION, FREE_FLOW_SPEED, MIN_HEADWAY, PROBE_FLOW, STATION, VEHICLE_SPEED
+from .limits import (
+    CRITICAL_GAP,
+    DRIVERS,
+    ELEVATION,
+    FREE_FLOW_SPEED,
+    MIN_HEADWAY,
+    PROBE_FLOW,
+    STATION,
+    VEHICLE_SPEED,
+    WORKERS,
+    check_count,
+)
 from .merge_area import COVERAGE, LANES_COVERED, OutsideMethod, merge_area, passenger_car_flow
 from .merge_operations import TRUCK_EQUIVALENT
 from .output_files import Output, check_outputs, write_all
@@ -278,8 +289,7 @@ def _accel(args: argparse.Namespace, out: Console, err: Console) -> int:
 
 
 def _check(args: argparse.Namespace, out: Console, err: Console) -> int:
-    if not 0 <= args.monte_carlo <= 10_000_000:
-        raise InputError("command line", "--monte-carlo", "must lie between 0 and 10,000,000 drivers")
+    check_count(args.monte_carlo, DRIVERS, "command line", "--monte-carlo", "drivers")
     asked = [Output(option, path) for option, path in (("--json", args.json), ("--markdown", args.markdown),
                                                         ("--html", args.html)) if path is not None]  # fmt: skip
     check_outputs(asked, [args.site])
@@ -436,8 +446,8 @@ def _queue(args: argparse.Namespace, out: Console, err: Console) -> int:
 
 
 def _batch(args: argparse.Namespace, out: Console, err: Console) -> int:
-    if args.workers is not None and not 1 <= args.workers <= 64:
-        raise InputError("command line", "--workers", "must lie between 1 and 64")
+    if args.workers is not None:
+        check_count(args.workers, WORKERS, "command line", "--workers", "processes")
     asked = [Output(option, path) for option, path in (("--json", args.json), ("--csv", args.csv),
                                                         ("--xlsx", args.xlsx), ("--markdown", args.markdown)) if path]  # fmt: skip
     sources = source_files(args.input)

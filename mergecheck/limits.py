@@ -89,3 +89,17 @@ STATION = Limit("length", -1e7, 1e7)
 CARRIAGEWAY_FLOW = Limit("flow", 0.0, 9 * 3000 / 3600)
 """Flow of a whole carriageway (also at most 3,000 veh/h a lane and at least the adjacent lane's, checked where
 the lanes are known)."""
+
+
+DRIVERS = range(0, 10_000_001)
+"""Drivers a Monte Carlo check simulates for each design vehicle."""
+WORKERS = range(1, 65)
+"""Worker processes of a batch."""
+
+
+def check_count(value: object, allowed: range, source: str, field: str, unit: str) -> int:
+    """A whole number within ``allowed``, or :class:`InputError` naming the source, the field and the rule."""
+    if isinstance(value, bool) or not isinstance(value, int) or value not in allowed:
+        last = allowed.stop - 1
+        raise InputError(source, field, f"must be a whole number between {allowed.start:,} and {last:,} {unit}")
+    return value

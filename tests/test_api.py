@@ -59,3 +59,15 @@ def test_a_bad_sweep_is_named_as_the_api_takes_it(repo: Path) -> None:
     site = mergecheck.load_site(repo / "examples" / "willowmere-level.yaml")
     with pytest.raises(mergecheck.InputError, match=r"^sweep_site: vary lane_length: wrong kind of quantity"):
         mergecheck.sweep_site(site, "lane_length=1 kg:2 m:1 m")
+
+
+def test_counts_out_of_range_are_refused_by_the_api_as_by_the_command_line(repo: Path, cli: Any) -> None:
+    site = mergecheck.load_site(repo / "examples" / "willowmere-level.yaml")
+    for drivers in (-5, 3.5, True, 10_000_001):
+        with pytest.raises(mergecheck.InputError, match=r"^assess: monte_carlo: must be a whole number between 0 and"):
+            mergecheck.assess(site, monte_carlo=drivers)  # type: ignore[arg-type]
+    for workers in (0, -1, 65):
+        with pytest.raises(mergecheck.InputError, match=r"^assess_batch: workers: must be a whole number between 1"):
+            mergecheck.assess_batch(repo / "examples" / "corridor", workers=workers)
+    run = cli("batch", repo / "examples" / "corridor", "--workers", "0")
+    assert run.code == 2 and "--workers: must be a whole number between 1 and 64 processes" in run.stderr
