@@ -8,7 +8,6 @@ from typing import Any
 import pytest
 
 from mergecheck.cautions import CAUTION_LINE, CAUTIONS
-from mergecheck.report.terminal import PROSE_WIDTH
 
 EX = Path(__file__).parent.parent / "examples"
 COMMANDS = [
@@ -72,13 +71,3 @@ def test_batch_outputs_carry_cautions(cli: Any, tmp_path: Path) -> None:
     lines = table.read_text().splitlines()
     assert lines[: len(CAUTIONS)] == [f"# Caution: {c}" for c in CAUTIONS]  # comment lines, then the table
     assert lines[len(CAUTIONS)].startswith("rank,site,")
-
-
-def test_piped_details_wrap_the_assumptions_table(cli: Any) -> None:
-    """Piped or redirected, tables keep their natural width, but the prose columns of the assumptions wrap
-    (they once ran to thousands of characters a line); every word is still there."""
-    full = cli("check", EX / "quarry-hill-upgrade.yaml", "--details")
-    start = full.stdout.index("\nAssumptions\n")
-    table = full.stdout[start:].split("\n\n")[0].splitlines()[1:]
-    assert len(table) > 20 and max(len(line) for line in table) <= 60 + 2 * (PROSE_WIDTH + 3) + 1
-    assert "Transportation Research C 36" in " ".join(full.stdout.split())

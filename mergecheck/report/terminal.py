@@ -184,15 +184,18 @@ PROSE_WIDTH = 72
 
 def _table(table: DocumentTable, system: UnitSystem) -> Table:
     shown = Table(title=table.caption or None, title_justify="left")
+    cells = [[_styled(v.text(system, unit=False) + (" ⚑" if v.flag == "large" else ""), v.flag) for v in row]
+             for row in table.rows]  # fmt: skip
     for i, (heading, kind) in enumerate(table.columns):
         unit = unit_of(kind, system)
         heading = f"{heading} ({unit})" if unit else heading
         if kind == "text":  # the first column (vehicle ids) whole; prose wraps, piped as on a terminal
             shown.add_column(heading, no_wrap=i == 0, max_width=None if i == 0 else PROSE_WIDTH)
-        else:
-            shown.add_column(heading, justify="right")
-    for row in table.rows:
-        shown.add_row(*(_styled(v.text(system, unit=False) + (" ⚑" if v.flag == "large" else ""), v.flag) for v in row))
+        else:  # numbers whole; on a narrow terminal a long heading word is broken rather than cut off
+            widest = max((row[i].cell_len for row in cells), default=1)
+            shown.add_column(heading, justify="right", overflow="fold", min_width=widest)
+    for row in cells:
+        shown.add_row(*row)
     return shown
 
 
