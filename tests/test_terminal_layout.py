@@ -35,3 +35,25 @@ def test_an_80_column_terminal_cuts_no_figure_and_no_heading() -> None:
     assert "…" not in text and max(len(line) for line in text.splitlines()) <= 80
     for figure in ("97.0", "54.6", "76.8", "80.3", "28.2 ⚑", "47.1", "177.9"):
         assert figure in text
+
+
+def test_the_batch_table_names_each_verdict_basis_and_the_governing_vehicles_own_verdict(cli: Any) -> None:
+    """Kestrel Way (examples/corridor) meets on the policy basis while its governing semitrailer never reaches
+    merge speed: the row says both, not one in the other's words (it once read 'short, never')."""
+    run = cli("batch", EX / "corridor")
+    lines = run.stdout.splitlines()
+    row = next(i for i, line in enumerate(lines) if "Kestrel Way" in line)
+    assert "meets (policy)" in lines[row] and "short" not in lines[row]
+    assert "semitrailer-design (cannot-reach)" in " ".join(lines[row : row + 3])
+
+
+def test_an_80_column_batch_table_cuts_nothing() -> None:
+    from mergecheck.batch import assess_all, ranked, read_batch, summarize
+    from mergecheck.report.terminal import batch_view
+
+    results = ranked(assess_all(read_batch(str(EX / "corridor")).entries, workers=1))
+    console = Console(width=80, record=True, file=io.StringIO(), color_system=None)
+    console.print(batch_view(results, summarize(results), "si"))
+    text = console.export_text()
+    assert "…" not in text and max(len(line) for line in text.splitlines()) <= 80
+    assert "(policy)" in text and "Kestrel Way" in text and "1077" in text  # a verdict may wrap before its basis

@@ -111,18 +111,24 @@ def acceleration_view(run: AccelerationRun, system: UnitSystem) -> RenderableTyp
 def vehicles_view(figures: list[VehicleFigures], system: UnitSystem) -> RenderableType:
     """One row per design vehicle with its key figures."""
     table = Table(title="Design vehicles", title_justify="left")
-    table.add_column("Id", style="bold", no_wrap=True)
-    table.add_column("Model", no_wrap=True)
-    table.add_column(f"W/P ({unit_symbol('weight_to_power', system)})", justify="right")
+    table.add_column("Vehicle (model)", no_wrap=True)
+    _figure_column(table, f"W/P ({unit_symbol('weight_to_power', system)})")
     for grade, _ in figures[0].sustained_speeds if figures else ():
-        table.add_column(f"Held {grade:.0%} ({unit_symbol('speed', system)})", justify="right")
-    table.add_column(f"Stop to {show(80 / 3.6, 'speed', system)}", justify="right", no_wrap=True)
+        _figure_column(table, f"Held {grade:.0%} ({unit_symbol('speed', system)})")
+    _figure_column(table, f"Stop to {show(80 / 3.6, 'speed', system)}")
     for f in figures:
         wp = "-" if f.weight_to_power is None else f"{convert(f.weight_to_power, 'weight_to_power', system):.0f}"
         held = ["> 250" if v is None else f"{convert(v, 'speed', system):.0f}" for _, v in f.sustained_speeds]
         start = "-" if f.level_distance is None else f"{show(f.level_distance, 'length', system)}, {f.level_time:.0f} s"
-        table.add_row(f.vehicle.id, f.vehicle.model_name, wp, *held, start)
+        vehicle = Text.assemble((f.vehicle.id, "bold"), "\n", (f.vehicle.model_name, "dim"))  # model under the id
+        table.add_row(vehicle, wp, *held, start)
     return with_cautions(table)
+
+
+def _figure_column(table: Table, heading: str) -> None:
+    """A right-aligned column of figures whose heading and figures break over lines on a narrow terminal instead
+    of being cut off with an ellipsis (rich cannot hold a column at a least width and still fit the terminal)."""
+    table.add_column(heading, justify="right", overflow="fold")
 
 
 _VERDICT_STYLE = {"meets": "bold green", "short": "bold red", "cannot-reach": "bold red"}
@@ -184,18 +190,15 @@ PROSE_WIDTH = 72
 
 def _table(table: DocumentTable, system: UnitSystem) -> Table:
     shown = Table(title=table.caption or None, title_justify="left")
-    cells = [[_styled(v.text(system, unit=False) + (" ⚑" if v.flag == "large" else ""), v.flag) for v in row]
-             for row in table.rows]  # fmt: skip
     for i, (heading, kind) in enumerate(table.columns):
         unit = unit_of(kind, system)
         heading = f"{heading} ({unit})" if unit else heading
         if kind == "text":  # the first column (vehicle ids) whole; prose wraps, piped as on a terminal
-            shown.add_column(heading, no_wrap=i == 0, max_width=None if i == 0 else PROSE_WIDTH)
-        else:  # numbers whole; on a narrow terminal a long heading word is broken rather than cut off
-            widest = max((row[i].cell_len for row in cells), default=1)
-            shown.add_column(heading, justify="right", overflow="fold", min_width=widest)
-    for row in cells:
-        shown.add_row(*row)
+            shown.add_column(heading, no_wrap=i == 0, max_width=None if i == 0 else PROSE_WIDTH, overflow="fold")
+        else:
+            _figure_column(shown, heading)
+    for row in table.rows:
+        shown.add_row(*(_styled(v.text(system, unit=False) + (" ⚑" if v.flag == "large" else ""), v.flag) for v in row))
     return shown
 
 
@@ -305,38 +308,34 @@ def batch_view(results: list[BatchResult], summary: BatchSummary, system: UnitSy
     skipped = Text(f"Left out, not site files: {'; '.join(summary.skipped)}") if summary.skipped else Text("")
     table = Table(title="Sites, worst first", title_justify="left")
     table.add_column("#", justify="right")
-    table.add_column("Site", overflow="fold", ratio=1, min_width=28)
-    table.add_column("Verdict", no_wrap=True)
-    table.add_column("Governing", overflow="ellipsis", max_width=20)
-    for heading in ("Need", "Have", "Short by"):
-        table.add_column(f"{heading} ({unit_symbol('length', system)})", justify="right", no_wrap=True)
-    table.add_column(f"Δv ({unit_symbol('speed', system)})", justify="right", no_wrap=True)
+    table.add_column("Site, and the vehicle that governs (its own verdict)", overflow="fold", ratio=1)
+    table.add_column("Verdict", overflow="fold")
+    for heading in ("Need", "Have", "Short by", "Policy"):  # the unit under the heading: narrow columns
+        _figure_column(table, f"{heading}\n({unit_symbol('length', system)})")
+    _figure_column(table, f"Δv\n({unit_symbol('speed', system)})")
     for rank, result in enumerate(results[:BATCH_ROWS_SHOWN], start=1):
         row = batch_row(rank, result, system)
         if result.assessment is None:
-            table.add_row(
-                row["rank"],
-                Text(f"{result.label}: {row['error']}", style="red"),
-                Text("unreadable", style="bold red"),
-                "",
-                "",
-                "",
-                "",
-                "",
-            )
+            error = Text(f"{result.label}: {row['error']}", style="red")
+            table.add_row(row["rank"], error, Text("unreadable", style="bold red"), *[""] * 5)
             continue
-        verdict = row["verdict"] if row["governing_verdict"] != "cannot-reach" else "short, never"
+        a = result.assessment
         table.add_row(
             row["rank"],
-            row["site"],
-            Text(verdict, style=_VERDICT_STYLE[result.assessment.verdict]),
-            row["governing_vehicle"],
+            Text.assemble(row["site"], "\n", (f"{row['governing_vehicle']} ({row['governing_verdict']})", "dim")),
+            Text.assemble((a.verdict, _VERDICT_STYLE[a.verdict]), (f" ({a.basis})", "dim")),
             row["length_needed"],
             row["available"],
             row["deficit"] or "-",
+            row["policy_minimum"] or "-",
             row["speed_differential_at_taper_start"],
         )
-    parts: list[RenderableType] = [head, Text(f"Short sites by governing vehicle: {by_vehicle}"), skipped, table]
+    note = Text(
+        "Need, Have and Short by are the governing vehicle's own (the performance basis); each verdict is on its "
+        "site's verdict basis, named beside it.",
+        style="dim",
+    )
+    parts: list[RenderableType] = [head, Text(f"Short sites by governing vehicle: {by_vehicle}"), skipped, table, note]
     rest = len(results) - BATCH_ROWS_SHOWN
     if rest > 0:
         parts.append(Text(f"... and {rest} more sites, ranked after these: --csv FILE or --json FILE lists them all."))
