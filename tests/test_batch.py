@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import csv
 import json
 import math
 import shutil
@@ -217,3 +218,15 @@ def test_a_unit_in_a_unit_suffixed_csv_column_is_named(cli: Any, tmp_path: Path)
     assert run.code == 2
     message = "controlling_speed_kmh: the column's unit (km/h) is in its heading: give the number alone, not '35 km/h'"
     assert message in " ".join(run.stdout.split())
+
+
+def test_every_batch_table_names_the_verdict_basis(cli: Any, repo: Path, tmp_path: Path) -> None:
+    """A site meeting on the policy basis with a governing vehicle short on its own (Gorse Lane, examples/corridor)
+    reads so in the CSV and the Markdown, with the note that says why."""
+    table, report = tmp_path / "out.csv", tmp_path / "out.md"
+    cli("batch", repo / "examples" / "corridor", "--csv", table, "--markdown", report)
+    rows = list(csv.DictReader(line for line in table.read_text().splitlines() if not line.startswith("#")))
+    gorse = next(r for r in rows if r["site"].startswith("Gorse Lane"))
+    assert (gorse["verdict"], gorse["verdict_basis"], gorse["governing_verdict"]) == ("meets", "policy", "short")
+    assert "| **meets** (policy) | `bus` (short) |" in report.read_text()
+    assert "a site on the policy basis meets when the lane is at least the policy minimum" in report.read_text()

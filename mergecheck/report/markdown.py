@@ -9,7 +9,7 @@ from ..batch import BatchResult, BatchSummary
 from ..cautions import CAUTIONS
 from ..units import UnitSystem, unit_symbol
 from .document import Items, Paragraph, SiteDocument, Table, Value, unit_of
-from .table_rows import batch_row
+from .table_rows import BATCH_NOTE, batch_row
 
 _PUNCTUATION = re.compile(r"([\\`*\[\]|#!]|(?<![A-Za-z0-9])_|_(?![A-Za-z0-9]))")
 """Markdown punctuation that can start emphasis, code, a link, an image, a heading or a table cell (an
@@ -99,10 +99,11 @@ def batch_markdown(results: list[BatchResult], summary: BatchSummary, system: Un
             lines.append(f"| {rank} | {_cell(result.label)} | **unreadable**: {_cell(row['error'])} | | | | | | | | |")
             continue
         lines.append(
-            f"| {rank} | {_cell(row['site'])} | **{row['verdict']}** | `{row['governing_vehicle']}` ({row['governing_verdict']}) "
+            f"| {rank} | {_cell(row['site'])} | **{row['verdict']}** ({row['verdict_basis']}) "
+            f"| `{row['governing_vehicle']}` ({row['governing_verdict']}) "
             f"| {row['length_needed']} | {row['available']} | {row['deficit'] or '-'} | {row['policy_minimum'] or '-'} "
             f"| {row['speed_differential_at_taper_start']} | {float(row['merged_by_lane_end']):.1%} | {row['los'] or '-'} |"
         )
-    lines += ["", "## Cautions", ""]
+    lines += ["", BATCH_NOTE, "", "## Cautions", ""]
     lines += [f"- {c}" for c in CAUTIONS]
     return "\n".join(lines) + "\n"

@@ -10,6 +10,7 @@ COLUMNS = (
     "site",
     "input",
     "verdict",
+    "verdict_basis",
     "governing_vehicle",
     "governing_verdict",
     "length_needed",
@@ -21,6 +22,14 @@ COLUMNS = (
     "los",
     "error",
 )
+
+
+BATCH_NOTE = (
+    "The lengths needed and short are the governing vehicle's own (the performance basis); each site's verdict is on"
+    " its verdict basis, named beside it, and a site on the policy basis meets when the lane is at least the policy"
+    " minimum."
+)
+"""Read under every batch table: why a site may meet while its governing vehicle falls short."""
 
 
 def batch_row(rank: int, result: BatchResult, system: UnitSystem) -> dict[str, str]:
@@ -44,6 +53,7 @@ def batch_row(rank: int, result: BatchResult, system: UnitSystem) -> dict[str, s
         "site": a.site.name,
         "input": result.label,
         "verdict": a.verdict,
+        "verdict_basis": a.basis,
         "governing_vehicle": g.vehicle.id,
         "governing_verdict": g.verdict,
         "length_needed": length(g.length_needed) if g.length_needed is not None else "never",

@@ -21,7 +21,7 @@ from ..units import UnitSystem, convert, show, unit_symbol
 from ..vehicle_figures import VehicleFigures
 from .document import Block, Items, Paragraph, SiteDocument, merge_area_blocks, unit_of
 from .document import Table as DocumentTable
-from .table_rows import batch_row
+from .table_rows import BATCH_NOTE, batch_row
 from .wording import clearing
 
 
@@ -323,18 +323,14 @@ def batch_view(results: list[BatchResult], summary: BatchSummary, system: UnitSy
         table.add_row(
             row["rank"],
             Text.assemble(row["site"], "\n", (f"{row['governing_vehicle']} ({row['governing_verdict']})", "dim")),
-            Text.assemble((a.verdict, _VERDICT_STYLE[a.verdict]), (f" ({a.basis})", "dim")),
+            Text.assemble((a.verdict, _VERDICT_STYLE[a.verdict]), (f" ({row['verdict_basis']})", "dim")),
             row["length_needed"],
             row["available"],
             row["deficit"] or "-",
             row["policy_minimum"] or "-",
             row["speed_differential_at_taper_start"],
         )
-    note = Text(
-        "Need, Have and Short by are the governing vehicle's own (the performance basis); each verdict is on its "
-        "site's verdict basis, named beside it.",
-        style="dim",
-    )
+    note = Text(BATCH_NOTE, style="dim")
     parts: list[RenderableType] = [head, Text(f"Short sites by governing vehicle: {by_vehicle}"), skipped, table, note]
     rest = len(results) - BATCH_ROWS_SHOWN
     if rest > 0:
