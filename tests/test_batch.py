@@ -108,7 +108,9 @@ def test_sweep_verdict_change_matches_single_checks(cli: Any, repo: Path, tmp_pa
         site["geometry"]["lane_length"] = f"{points[index]['value_si']} m"
         site_file = tmp_path / "site.yaml"
         site_file.write_text(yaml.safe_dump(site))
-        assert cli("check", site_file, "--json").json()["verdict"] == expected == points[index]["verdict"]
+        single = cli("check", site_file, "--json").json()
+        assert single["verdict"] == expected == points[index]["verdict"]
+        assert single["verdict_basis"] == points[index]["verdict_basis"] == "policy"
 
 
 def test_sweep_other_fields_and_bad_input(cli: Any, repo: Path) -> None:

@@ -357,6 +357,7 @@ def sweep_json(result: Sweep) -> dict[str, Any]:
             {
                 "value_si": p.value,
                 "verdict": p.assessment.verdict,
+                "verdict_basis": p.assessment.basis,
                 "verdict_changes": p.verdict_changes,
                 "governing_vehicle": p.assessment.governing.vehicle.id,
                 "length_needed_m": _number(p.assessment.governing.length_needed, 3),

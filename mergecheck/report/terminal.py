@@ -353,7 +353,11 @@ def sweep_view(result: Sweep, system: UnitSystem) -> RenderableType:
         marker = "  ◂ verdict changes" if p.verdict_changes else ""
         table.add_row(
             f"{convert(p.value, kind, system):.{2 if kind in ('grade',) else 0}f}",
-            Text(p.assessment.verdict + marker, style=_VERDICT_STYLE[p.assessment.verdict]),
+            Text.assemble(
+                (p.assessment.verdict, _VERDICT_STYLE[p.assessment.verdict]),
+                (f" ({p.assessment.basis})", "dim"),
+                marker,
+            ),
             g.vehicle.id,
             needed,
             f"{g.merge.by_lane_end:.1%}",
