@@ -132,6 +132,7 @@ def vehicle_records(
                     "deficit_m": v.deficit,
                     "merged_by_lane_end": v.merge.by_lane_end,
                     "merged_by_taper_end": v.merge.by_taper_end,
+                    "merged_unforced": v.merge.unforced,
                     "forced_merges_veh_h": v.merge.forced_merges_per_h,
                     "stops_veh_h": v.merge.stops_per_h,
                 }

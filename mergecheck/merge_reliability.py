@@ -60,12 +60,17 @@ class MergeReliability:
     """Where merging may begin; None if the vehicle never gets within the minimum merge speed. [m]"""
     by_lane_end: float
     by_taper_end: float
+    unforced: float
+    """Probability of merging into a gap the driver accepts, before the forced rule applies at the end of the
+    full-width lane (active model); the rest of ``by_taper_end`` is forced. The classic model has no forced rule:
+    ``by_lane_end``. [-]"""
     reliability: float
     """Target probability of merging by the end of the lane. [-]"""
     length_for_reliability: float | None
     """Lane length (from the convergence point) giving the target probability; None beyond the search range. [m]"""
     forced_merges_per_h: float
-    """Vehicles of this class merging in the taper. [veh/h]"""
+    """Vehicles of this class forcing their way in by the end of the taper (the classic model: merging in the
+    taper). [veh/h]"""
     stops_per_h: float
     """Vehicles of this class reaching the end of the taper without merging. [veh/h]"""
     mean_stopped_wait: float
@@ -259,6 +264,7 @@ def merge_reliabilities(
     for r, setting in enumerate(settings):
         n = solved[r]
         headways = setting.headways
+        unforced = checks[r].unforced if r in checks else float(by_lane_end[r])
         results.append(
             Merge(
                 MergeReliability(
@@ -267,9 +273,10 @@ def merge_reliabilities(
                     eligible_station=float(x_a[r]) if eligible[r] else None,
                     by_lane_end=float(by_lane_end[r]),
                     by_taper_end=float(by_taper_end[r]),
+                    unforced=unforced,
                     reliability=setting.reliability,
                     length_for_reliability=None if np.isnan(length[r]) else max(0.0, float(length[r])),
-                    forced_merges_per_h=float(flow[r] * 3600 * max(0.0, by_taper_end[r] - by_lane_end[r])),
+                    forced_merges_per_h=float(flow[r] * 3600 * max(0.0, by_taper_end[r] - unforced)),
                     stops_per_h=float(flow[r] * 3600 * (1.0 - by_taper_end[r])),
                     mean_stopped_wait=0.0 if headways is None else stopped_wait(headways, setting.stop_critical_gap),
                     model="classic" if setting.behaviour is None else "active",
@@ -294,6 +301,8 @@ class _SiteCurve:
     site: FloatArray
     """Probability of having merged by each of ``decided`` (decision stations), to be read at ``crossing``."""
     tau: FloatArray
+    unforced: float
+    """Probability of having merged before the forced rule applies (the cell before the force cell). [-]"""
 
 
 FIRST_CELLS = 256
@@ -374,8 +383,12 @@ def _active_curves(
     beyond = np.sum((x <= crossing[picked, n - 1][:, None]) & real, axis=1)
     solved = np.clip(np.where(hit.any(axis=1), np.argmax(hit, axis=1) + 1, beyond), 1, n)
     free = {r: (shifted[i], int(solved[i]), tau_free[i]) for i, r in enumerate(rows)}
+    before_force = np.minimum(site_rules.force_cell, site_not.shape[1]) - 1  # the last cell judged by choice
+    unforced = np.where(before_force >= 0, 1.0 - site_not[picked, np.maximum(before_force, 0)], 0.0)
     site = {
-        r: _SiteCurve(site_rules.row(i), x[i, : n[i]], crossing[i, : n[i]], decided[i, : n[i]], tau_site[i])
+        r: _SiteCurve(
+            site_rules.row(i), x[i, : n[i]], crossing[i, : n[i]], decided[i, : n[i]], tau_site[i], float(unforced[i])
+        )
         for i, r in enumerate(rows)
     }
     return free, site

@@ -221,7 +221,13 @@ def summary_sentence(assessment: SiteAssessment, system: Literal["si", "us"]) ->
             f"{show(g.speed_at_taper_start, 'speed', system)}, {show(g.speed_differential_at_taper_start, 'speed', system)} "
             f"below the stream."
         )
-    merged = f"{g.merge.by_lane_end:.0%} of them find a gap by the end of the lane"
+    forced = g.merge.by_taper_end - g.merge.unforced
+    accepted = "none of them finds" if g.merge.unforced < 0.005 else f"{g.merge.unforced:.0%} of them find"
+    merged = f"{accepted} a gap they accept before the full-width lane ends" + (
+        f", and {forced:.0%} {'more ' if g.merge.unforced >= 0.005 else ''}force their way in"
+        if forced >= 0.005
+        else ""
+    )
     lane_end = site.convergence + site.available_length
     if g.length_needed is None and (g.merge.eligible_station is None or g.merge.eligible_station > lane_end):
         return (

@@ -315,7 +315,7 @@ def _merging(a: SiteAssessment, system: UnitSystem) -> Section:
         ("May merge from", "length"),
         ("Merged by the end of the lane", "probability"),
         ("By the end of the taper", "probability"),
-        ("Forced merges in the taper (veh/h)", "per_hour"),
+        ("Forced merges (veh/h)", "per_hour"),
         ("Stops at the end of the taper (veh/h)", "per_hour"),
         ("Mean wait when stopped", "time"),
     )
@@ -346,8 +346,11 @@ def _merging(a: SiteAssessment, system: UnitSystem) -> Section:
             Paragraph(merge_behaviour(site), "quiet"),
             Paragraph(
                 "'May merge from' is measured from the convergence point: where the vehicle first comes within the"
-                " minimum merge speed of the stream. A stopped vehicle waits for a gap at its from-stop critical gap"
-                " (Adams' formula for random arrivals, its renewal-theory equivalent for Cowan's M3).",
+                " minimum merge speed of the stream. A forced merge is one made only because the lane ends: at the end"
+                " of the full-width lane into a gap the driver would not accept, or nosing in along the taper; a"
+                " vehicle never within the minimum merge speed merges only so. A stopped vehicle waits for a gap at"
+                " its from-stop critical gap (Adams' formula for random arrivals, its renewal-theory equivalent for"
+                " Cowan's M3).",
                 "quiet",
             ),
         ),
@@ -408,7 +411,7 @@ def _exception(a: SiteAssessment, exception: DesignException, system: UnitSystem
         short = Value("not short of policy (the computed needs govern)")
     consequences = Table(
         (("Vehicle", "text"), ("Differential at the end of the lane", "speed"),
-         ("Merged by the end of the lane", "probability"), ("Forced merges in the taper (veh/h)", "per_hour"),
+         ("Merged by the end of the lane", "probability"), ("Forced merges (veh/h)", "per_hour"),
          ("Stops (veh/h)", "per_hour")),
         tuple(
             (Value(v.vehicle.id), Value(v.speed_differential_at_taper_start, "speed"),

@@ -135,6 +135,7 @@ def site_json(assessment: SiteAssessment, exception: DesignException | None = No
                 # the lane's end is the end of the length available: the taper's start plus the taper credit
                 "merge_probability_by_lane_end": _number(v.merge.by_lane_end),
                 "merge_probability_by_taper_end": _number(v.merge.by_taper_end),
+                "merge_probability_unforced": _number(v.merge.unforced),
                 "length_for_reliability_m": _number(v.merge.length_for_reliability, 3),
                 "length_needed_m": _number(v.length_needed, 3),
                 "forced_merges_per_h": _number(v.merge.forced_merges_per_h, 3),
