@@ -102,7 +102,7 @@ _OTHER_FILES = (
     (re.compile(r"^(model|parameters)\s*:", re.MULTILINE), "a vehicle profile"),
     (re.compile(r"^(highway_speeds|lengths)\s*:", re.MULTILINE), "a policy table"),
 )
-_PLAIN_NUMBER = re.compile(r"\s*[-+]?(\d+\.?\d*|\.\d+)([eE][-+]?\d+)?\s*")
+_PLAIN_NUMBER = re.compile(r"\s*[-+]?(\d+(\.\d*)?|\.\d+)([eE][-+]?\d+)?\s*")  # one way to read each digit
 _SITE_KEY = re.compile(r"^mainline\s*:", re.MULTILINE)
 
 

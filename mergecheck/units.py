@@ -179,15 +179,17 @@ def _is_count(name: str) -> bool:
     return bool(registry().Quantity(1, name).dimensionless)
 
 
-_BARE_NUMBER = re.compile(r"\s*[-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?\s*")
+_BARE_NUMBER = re.compile(r"\s*[-+]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][-+]?\d+)?\s*")  # one way to read each digit
 _NOT_FINITE = re.compile(r"\s*[-+]?(?:nan|inf)", re.IGNORECASE)
 _UNIT_TOKEN = r"(?:[A-Za-z%°]+(?:\s*(?:\^|\*\*)\s*-?[1-3]|[²³])?)"
 _NUMBER_AND_UNIT = re.compile(
     r"\s*(?P<number>[-+]?(?:\d{1,17}(?:\.\d{0,24})?|\.\d{1,24})(?:[eE][-+]?\d{1,3})?)\s*"
-    rf"(?P<unit>(?:1\s*/\s*)?{_UNIT_TOKEN}(?:\s*[/*·]?\s*{_UNIT_TOKEN})*)\s*"
+    rf"(?P<unit>(?:1\s*/\s*)?{_UNIT_TOKEN}(?:(?:\s*[/*·]\s*|\s+){_UNIT_TOKEN})*)\s*"
 )
 """A plain number (at most 17 digits before the point and 24 after, an exponent of at most 3 digits) and a unit
-made of names joined by '/', '*', '·' or a space, each with at most a small power (m/s^2, veh/km, 1/s)."""
+made of names joined by '/', '*', '·' or a space, each with at most a small power (m/s^2, veh/km, 1/s). The join
+is required: were it optional, a run of letters could be cut into names in exponentially many ways before a
+stray character refused it (a long run of letters then took minutes)."""
 
 
 @functools.lru_cache(maxsize=1024)

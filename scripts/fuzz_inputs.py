@@ -56,7 +56,8 @@ unit of no kind any field has, non-finite numbers, a bare number, booleans and c
 ODD_VALUES: list[Any] = [
     None, 0, -1, 1e9, 0.5, "0 m", "-5 m", "1e9 m", "4 %", "60 %", "-12 %", "3 kg", "0 veh/h", "9000 veh/h",
     "stop", "65 mph", "0 km/h", "400 km/h", "1 s", "200 lb/hp", "0.001 m", "", "x" * 300, "Ω", "[/]",
-    "<b>x</b>", "1 pc", "5 rpm", "0.03 pc", "1e-300 m", "/dev/zero", "n" * 300 + ".yaml",
+    "<b>x</b>", "1 pc", "5 rpm", "0.03 pc", "1e-300 m", "/dev/zero", "n" * 300 + ".yaml", "1 " + "n" * 60 + "!",
+    "1" * 20_000 + "x",
 ]  # fmt: skip
 """Values that may or may not fit a field: the command decides, and must end cleanly either way."""
 

@@ -15,6 +15,7 @@ import yaml
 
 from mergecheck.errors import InputError
 from mergecheck.inputs import _CONTROL, _is_control, parse_yaml
+from mergecheck.units import parse_quantity
 
 BASE: dict[str, Any] = yaml.safe_load(
     """
@@ -437,3 +438,19 @@ def test_a_pipe_or_a_device_is_refused_not_read(cli: Any, repo: Path, tmp_path: 
     run = cli("batch", tmp_path)
     assert run.code == 2 and "1 meet" in run.stdout and "1 unreadable" in run.stdout
     assert "pipe.yaml: cannot read the file: it is a device, pipe or socket" in " ".join(run.stdout.split())
+
+
+@pytest.mark.parametrize(
+    ("text", "rule"),
+    [
+        ("1 " + "n" * 60 + "!", "cannot read"),  # letters that could be cut into unit names in 2^59 ways
+        ("1" * 20_000 + "x", "cannot read"),  # digits that a number pattern could split 20,000^2 / 2 ways
+        ("1" * 20_000, "a unit is required"),
+    ],
+    ids=["letters", "digits", "bare digits"],
+)
+def test_a_long_run_of_letters_or_digits_is_refused_like_a_short_one(text: str, rule: str) -> None:
+    """Found by the fuzzer: each once took minutes (a pattern that could read the same characters in many ways
+    and tried them all before refusing); read in one pass, they are refused with the usual message."""
+    with pytest.raises(InputError, match=rule):
+        parse_quantity(text, "length", source="site.yaml", field="geometry.lane_length")
