@@ -14,6 +14,7 @@ from typing import Any
 from .assessment import SiteAssessment, SiteCheck, assess_many
 from .assessment import assess as _assess
 from .batch import BatchResult, SiteEntry, assess_all, ranked, read_entries
+from .errors import InputError
 from .exception_study import DesignException
 from .exception_study import design_exception as _design_exception
 from .inputs import validated
@@ -154,7 +155,7 @@ def to_markdown(result: SiteCheck, *, units: UnitSystem = "si", exception: bool 
     from .report import markdown
     from .report.document import site_document
 
-    return markdown.site_markdown(site_document(result, units, _exception(result, exception)))
+    return markdown.site_markdown(site_document(result, _units(units, "to_markdown"), _exception(result, exception)))
 
 
 def to_html(result: SiteCheck, *, units: UnitSystem = "si", exception: bool | DesignException = False) -> str:
@@ -162,13 +163,19 @@ def to_html(result: SiteCheck, *, units: UnitSystem = "si", exception: bool | De
     from .report import html  # matplotlib is slow to import: only when a page is asked for
     from .report.document import site_document
 
-    return html.site_html(site_document(result, units, _exception(result, exception)), result)
+    return html.site_html(site_document(result, _units(units, "to_html"), _exception(result, exception)), result)
 
 
 def design_exception(result: SiteAssessment, *, prepared_by: str | None = None) -> DesignException:
     """The design-exception study: the policy value, the deficit, the consequences and each mitigation
     rerun on a modified layout, dated, with who prepared it and the site file's SHA-256."""
     return _design_exception(result, prepared_by=prepared_by)
+
+
+def _units(units: object, call: str) -> UnitSystem:
+    if units not in ("si", "us"):
+        raise InputError(call, "units", f"must be 'si' or 'us', not {units!r}")
+    return "si" if units == "si" else "us"
 
 
 def _exception(result: SiteAssessment, given: bool | DesignException) -> DesignException | None:

@@ -71,3 +71,12 @@ def test_counts_out_of_range_are_refused_by_the_api_as_by_the_command_line(repo:
             mergecheck.assess_batch(repo / "examples" / "corridor", workers=workers)
     run = cli("batch", repo / "examples" / "corridor", "--workers", "0")
     assert run.code == 2 and "--workers: must be a whole number between 1 and 64 processes" in run.stderr
+
+
+def test_a_unit_system_other_than_si_or_us_is_named(repo: Path) -> None:
+    result = mergecheck.assess(mergecheck.load_site(repo / "examples" / "willowmere-level.yaml"))
+    for render in (mergecheck.to_markdown, mergecheck.to_html):
+        with pytest.raises(
+            mergecheck.InputError, match=rf"^{render.__name__}: units: must be 'si' or 'us', not 'metric'"
+        ):
+            render(result, units="metric")  # type: ignore[arg-type]
