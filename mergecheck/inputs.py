@@ -148,22 +148,33 @@ def control_character(text: str) -> str | None:
     return None if found is None else f"U+{ord(found.group()):04X}"
 
 
-def refuse_control_characters(value: Any, source: str, field: str = "") -> None:
+def refuse_control_characters(value: Any, source: str, field: str = "", _seen: set[int] | None = None) -> None:
     """Raise :class:`InputError` naming the field of the first string (key or value) in a loaded document that
-    holds a control character (see :func:`control_character`)."""
+    holds a control character (see :func:`control_character`).
+
+    Each mapping and list is looked at once, under the first field that holds it: YAML aliases share one
+    object among many fields, and nine lists of nine aliases nested nine deep hold 9^9 strings by reference.
+    """
     if isinstance(value, str):
         found = control_character(value)
         if found is not None:
             rule = f"holds the control character {found}; text takes printable characters, tabs and line breaks only"
             raise InputError(source, field, rule)
-    elif isinstance(value, dict):
+        return
+    if not isinstance(value, (dict, list)):
+        return
+    seen = set() if _seen is None else _seen
+    if id(value) in seen:
+        return
+    seen.add(id(value))
+    if isinstance(value, dict):
         for key, item in value.items():
             name = f"{field}.{key}" if field else str(key)
-            refuse_control_characters(key, source, field)
-            refuse_control_characters(item, source, name)
-    elif isinstance(value, list):
+            refuse_control_characters(key, source, field, seen)
+            refuse_control_characters(item, source, name, seen)
+    else:
         for index, item in enumerate(value):
-            refuse_control_characters(item, source, f"{field}.{index}" if field else str(index))
+            refuse_control_characters(item, source, f"{field}.{index}" if field else str(index), seen)
 
 
 def parse_yaml(text: str, source: str) -> Any:

@@ -454,3 +454,19 @@ def test_a_long_run_of_letters_or_digits_is_refused_like_a_short_one(text: str, 
     and tried them all before refusing); read in one pass, they are refused with the usual message."""
     with pytest.raises(InputError, match=rule):
         parse_quantity(text, "length", source="site.yaml", field="geometry.lane_length")
+
+
+def test_aliases_nested_nine_deep_are_walked_once(cli: Any, tmp_path: Path) -> None:
+    """Found looking for inputs that hang: nine lists of nine aliases, nested nine deep, hold 9^9 strings by
+    reference (the 'billion laughs' of XML, in YAML). A backslash anywhere makes the reader look at every loaded
+    string; it now looks at each list once, so the file is refused for its unknown field at once, and a control
+    character in the shared leaf is still found."""
+    levels = ["a: &a [lol, lol, lol, lol, lol, lol, lol, lol, lol]"]
+    for low, high in zip("abcdefgh", "bcdefghi", strict=True):
+        levels.append(f"{high}: &{high} [{', '.join([f'*{low}'] * 9)}]")
+    site = tmp_path / "laughs.yaml"
+    site.write_text('name: "Laughs \\\\ site"\n' + "\n".join(levels) + "\n")
+    run = cli("check", site)
+    assert run.code == 2 and "a: unknown field" in run.stderr
+    with pytest.raises(InputError, match=r"^x: a\.1: holds the control character U\+0007"):  # where first held
+        parse_yaml('a: &a [ok, "lo\\a"]\nb: &b [*a, *a, *a]\nc: [*b, *b]\n', "x")  # the bell, escaped
