@@ -57,3 +57,11 @@ def test_an_80_column_batch_table_cuts_nothing() -> None:
     text = console.export_text()
     assert "…" not in text and max(len(line) for line in text.splitlines()) <= 80
     assert "(policy)" in text and "Kestrel Way" in text and "1077" in text  # a verdict may wrap before its basis
+
+
+def test_with_a_taper_credit_the_report_says_which_end_of_the_lane_it_means(cli: Any) -> None:
+    """Harbour Street counts 50 % of its 75 m taper: the gap figures are read at the end of the length available,
+    the speeds where the full-width lane ends, and the report says so; a site with no credit needs no such note."""
+    credited = cli("check", EX / "harbour-street-constrained.yaml").stdout
+    assert "the full-width lane ends 38 m before it" in " ".join(credited.split())
+    assert "With the taper credit" not in cli("check", EX / "willowmere-level.yaml").stdout

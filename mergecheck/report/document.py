@@ -350,7 +350,14 @@ def _merging(a: SiteAssessment, system: UnitSystem) -> Section:
                 " of the full-width lane into a gap the driver would not accept, or nosing in along the taper; a"
                 " vehicle never within the minimum merge speed merges only so. A stopped vehicle waits for a gap at"
                 " its from-stop critical gap (Adams' formula for random arrivals, its renewal-theory equivalent for"
-                " Cowan's M3).",
+                " Cowan's M3)."
+                + (
+                    f" With the taper credit, 'the end of the lane' in this table is the end of the length available"
+                    f" (the lane and {site.taper_credit:.0%} of the taper); the full-width lane ends"
+                    f" {show(site.available_length - site.lane_length, 'length', system)} before it."
+                    if site.available_length != site.lane_length
+                    else ""
+                ),
                 "quiet",
             ),
         ),
