@@ -143,6 +143,10 @@ def mutate_yaml(text: str, rng: random.Random) -> tuple[bytes, bool, str]:
             if misspelt != name and misspelt not in parent:
                 parent[misspelt] = parent.pop(name)
                 return _dump(data), True, f"key {name} spelt {misspelt}"
+    if choice < 0.7:  # aliases nested nine deep: 9^9 strings by reference, and a backslash to have them all read
+        levels = ['z0: &z0 ["lol\\\\", lol, lol, lol, lol, lol, lol, lol, lol]']
+        levels += [f"z{i}: &z{i} [{', '.join([f'*z{i - 1}'] * 9)}]" for i in range(1, 9)]
+        return (text.rstrip("\n") + "\n" + "\n".join(levels) + "\n").encode("utf-8"), False, "aliases nested nine deep"
     raw = text.encode("utf-8")
     return mutate_bytes(raw, rng)
 
