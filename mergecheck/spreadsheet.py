@@ -21,6 +21,9 @@ LARGEST = 50_000_000
 """Largest workbook read. [bytes]"""
 MOST_ROWS = 100_000
 """Most rows read from a sheet."""
+UNPACKED_LARGEST = 500_000_000
+"""Largest a workbook may unpack to (its parts as the zip directory states them, which reading holds to). [bytes]
+A few kilobytes of zip can unpack to gigabytes of sheet XML."""
 
 
 def sheet_rows(path: str) -> list[tuple[str, dict[str, str]]]:
@@ -34,6 +37,13 @@ def sheet_rows(path: str) -> list[tuple[str, dict[str, str]]]:
         raise InputError(path, "", f"cannot read the workbook: {error.strerror}") from None
     if size > LARGEST:
         raise InputError(path, "", f"the workbook is larger than {LARGEST:,} bytes")
+    try:
+        with zipfile.ZipFile(path) as archive:
+            unpacked = sum(part.file_size for part in archive.infolist())
+    except (zipfile.BadZipFile, OSError) as error:
+        raise InputError(path, "", f"not an .xlsx workbook ({type(error).__name__}: {str(error)[:100]})") from None
+    if unpacked > UNPACKED_LARGEST:
+        raise InputError(path, "", f"the workbook unpacks to more than {UNPACKED_LARGEST:,} bytes")
     import openpyxl  # only when a workbook is read
 
     try:

@@ -62,3 +62,17 @@ def test_a_file_that_is_not_a_workbook_ends_with_exit_2(cli: Any, tmp_path: Path
     workbook.write_bytes(content)
     run = cli("batch", workbook)
     assert run.code == 2 and "sites.xlsx" in run.stderr and "Traceback" not in run.stderr
+
+
+def test_a_workbook_that_unpacks_too_large_is_refused_before_it_is_read(
+    cli: Any, repo: Path, tmp_path: Path, monkeypatch: Any
+) -> None:
+    """A few kilobytes of zip can unpack to gigabytes of sheet XML: the sizes the zip's directory states (which
+    reading holds to) are summed first. Shown on a real workbook against a limit lowered for the test."""
+    from mergecheck import spreadsheet
+
+    book = tmp_path / "corridor.xlsx"
+    _workbook_from_csv(repo / "examples" / "corridor.csv", book)
+    monkeypatch.setattr(spreadsheet, "UNPACKED_LARGEST", 1_000)
+    run = cli("batch", book)
+    assert run.code == 2 and "the workbook unpacks to more than 1,000 bytes" in run.stderr
