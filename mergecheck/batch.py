@@ -49,7 +49,7 @@ from typing import Any
 
 from .assessment import SiteAssessment, assess, assess_many
 from .errors import InputError
-from .inputs import csv_rows, file_kind, printable, read_text, read_yaml, validated
+from .inputs import LARGEST_TEXT, csv_rows, file_kind, printable, read_text, read_yaml, validated
 from .policy import load_policy
 from .site import Site, SiteInput, site_from_input
 from .spreadsheet import sheet_rows
@@ -110,8 +110,8 @@ def not_a_site(path: Path) -> str | None:
     """What a YAML file in a folder of sites is, when it is clearly something else (a vehicle profile, a policy
     table: no top-level ``mainline`` and that kind's own keys); None for a site or anything unclear."""
     try:
-        if file_kind(path, str(path), "") != "file":
-            return None  # not a regular file: reported as such when it is read
+        if file_kind(path, str(path), "") != "file" or path.stat().st_size > LARGEST_TEXT:
+            return None  # not a regular file, or too large: reported as such when it is read
         text = path.read_text(encoding="utf-8", errors="replace")
     except (OSError, InputError):
         return None  # unreadable: reported as such when it is read

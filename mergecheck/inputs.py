@@ -205,14 +205,23 @@ def file_kind(path: str | Path, source: str, field: str) -> Literal["file", "fol
     return "file" if stat.S_ISREG(mode) else "folder" if stat.S_ISDIR(mode) else "other"
 
 
-def read_text(path: str | Path, what: str = "the file") -> str:
+LARGEST_TEXT = 200_000_000
+"""Largest text input read (site, vehicle, profile and policy files, batch lists and CSVs). [bytes] Far above any
+of them (a batch of 100,000 sites is about 60 MB); a larger file is surely not one."""
+
+
+def read_text(path: str | Path, what: str = "the file", largest: int | None = None) -> str:
     """A text file's content; a path that is not a regular file (a folder, a pipe that would wait for a writer, a
-    device that never ends), a file that cannot be read or one that is not UTF-8 raises :class:`InputError`."""
+    device that never ends), a file larger than ``largest`` bytes (default :data:`LARGEST_TEXT`), one that cannot be read or one that is not
+    UTF-8 raises :class:`InputError`."""
     kind = file_kind(path, str(path), "")
     if kind in ("folder", "other"):
         what_it_is = "a folder" if kind == "folder" else "a device, pipe or socket"
         raise InputError(str(path), "", f"cannot read {what}: it is {what_it_is}, not a regular file")
     try:
+        largest = LARGEST_TEXT if largest is None else largest
+        if kind == "file" and os.stat(path).st_size > largest:
+            raise InputError(str(path), "", f"cannot read {what}: it is larger than {largest:,} bytes")
         return Path(path).read_text(encoding="utf-8")
     except OSError as error:
         raise InputError(str(path), "", f"cannot read {what}: {error.strerror}") from None

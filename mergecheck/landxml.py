@@ -46,6 +46,11 @@ class LandXMLProfile:
     """Last PVI, measured from the start station: the profile is known up to here. [m]"""
 
 
+LANDXML_LARGEST = 1_000_000_000
+"""Largest LandXML file read. [bytes] A design model's file may hold surfaces of hundreds of megabytes beside the
+profile that is read."""
+
+
 def read_profile(path: str, alignment: str, profile: str, start_station: float) -> LandXMLProfile:
     """The named profile of the named alignment, with station 0 at ``start_station`` [m, on the alignment].
 
@@ -53,7 +58,7 @@ def read_profile(path: str, alignment: str, profile: str, start_station: float) 
     declares a document type, an alignment or profile not found (the names found are listed), a PVI that
     cannot be read, stations out of order, or a start station outside the profile.
     """
-    text = read_text(path, "the LandXML file")
+    text = read_text(path, "the LandXML file", largest=LANDXML_LARGEST)
     if _DECLARATION.search(text):
         raise InputError(path, "", "declares a document type or entities: refused (LandXML needs neither)")
     try:

@@ -470,3 +470,15 @@ def test_aliases_nested_nine_deep_are_walked_once(cli: Any, tmp_path: Path) -> N
     assert run.code == 2 and "a: unknown field" in run.stderr
     with pytest.raises(InputError, match=r"^x: a\.1: holds the control character U\+0007"):  # where first held
         parse_yaml('a: &a [ok, "lo\\a"]\nb: &b [*a, *a, *a]\nc: [*b, *b]\n', "x")  # the bell, escaped
+
+
+def test_a_text_input_larger_than_any_real_one_is_refused_unread(cli: Any, tmp_path: Path, monkeypatch: Any) -> None:
+    """A file far larger than any site, profile or batch (a wrong file chosen) is refused by its size before it
+    is read into memory; shown against a limit lowered for the test."""
+    from mergecheck import inputs
+
+    site = tmp_path / "site.yaml"
+    site.write_text(yaml.safe_dump(BASE))
+    monkeypatch.setattr(inputs, "LARGEST_TEXT", 100)
+    run = cli("check", site)
+    assert run.code == 2 and "cannot read the file: it is larger than 100 bytes" in run.stderr
