@@ -39,6 +39,7 @@ from __future__ import annotations
 import gc
 import os
 import re
+import stat
 from collections.abc import Callable, Iterator, Mapping, Sequence
 from concurrent.futures import ProcessPoolExecutor
 from contextlib import contextmanager, nullcontext
@@ -110,10 +111,11 @@ def not_a_site(path: Path) -> str | None:
     """What a YAML file in a folder of sites is, when it is clearly something else (a vehicle profile, a policy
     table: no top-level ``mainline`` and that kind's own keys); None for a site or anything unclear."""
     try:
-        if file_kind(path, str(path), "") != "file" or path.stat().st_size > LARGEST_TEXT:
+        status = path.stat()
+        if not stat.S_ISREG(status.st_mode) or status.st_size > LARGEST_TEXT:
             return None  # not a regular file, or too large: reported as such when it is read
         text = path.read_text(encoding="utf-8", errors="replace")
-    except (OSError, InputError):
+    except (OSError, ValueError):
         return None  # unreadable: reported as such when it is read
     if _SITE_KEY.search(text):
         return None
