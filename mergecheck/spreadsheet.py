@@ -41,7 +41,7 @@ def sheet_rows(path: str) -> list[tuple[str, dict[str, str]]]:
         with zipfile.ZipFile(path) as archive:
             unpacked = sum(part.file_size for part in archive.infolist())
     except (zipfile.BadZipFile, OSError) as error:
-        raise InputError(path, "", f"not an .xlsx workbook ({type(error).__name__}: {str(error)[:100]})") from None
+        raise _not_a_workbook(path, error) from None
     if unpacked > UNPACKED_LARGEST:
         raise InputError(path, "", f"the workbook unpacks to more than {UNPACKED_LARGEST:,} bytes")
     import openpyxl  # only when a workbook is read
@@ -49,7 +49,7 @@ def sheet_rows(path: str) -> list[tuple[str, dict[str, str]]]:
     try:
         book = openpyxl.load_workbook(path, read_only=True, data_only=True)
     except (zipfile.BadZipFile, KeyError, ValueError, OSError) as error:
-        raise InputError(path, "", f"not an .xlsx workbook ({type(error).__name__}: {str(error)[:100]})") from None
+        raise _not_a_workbook(path, error) from None
     except Exception as error:  # the XML inside refused by defusedxml, or malformed
         raise InputError(path, "", f"the workbook cannot be read safely ({type(error).__name__})") from None
     try:
@@ -60,6 +60,10 @@ def sheet_rows(path: str) -> list[tuple[str, dict[str, str]]]:
         raise InputError(path, "", f"the workbook is damaged ({type(error).__name__})") from None
     finally:
         book.close()
+
+
+def _not_a_workbook(path: str, error: Exception) -> InputError:
+    return InputError(path, "", f"not an .xlsx workbook ({type(error).__name__}: {str(error)[:100]})")
 
 
 def _rows(book: Any, path: str) -> list[tuple[str, dict[str, str]]]:
